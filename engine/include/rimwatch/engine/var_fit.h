@@ -1,0 +1,64 @@
+// FitVar: the batch face of the streaming engine. Feeds every row through a VarEstimator with the
+// expanding window (exact OLS = Gaussian ML per equation) and collects the inference a batch VAR
+// fit reports: coefficients with standard errors, residual covariances, companion eigenvalues,
+// spectral radius with its delta-method SE, Wald tests and lag-order criteria.
+// `rimwatch fit` prints this; `rimwatch replay` ends with it. One code path, no second estimator.
+#pragma once
+
+#include <Eigen/Core>
+#include <complex>
+#include <string>
+#include <vector>
+
+#include "rimwatch/engine/covariance.h"
+#include "rimwatch/engine/lag_order.h"
+#include "rimwatch/engine/status.h"
+#include "rimwatch/engine/var_spec.h"
+#include "rimwatch/engine/wald.h"
+
+namespace rimwatch {
+
+struct GrangerRequest {
+  std::vector<std::string> cause;
+  std::vector<std::string> effect;
+};
+
+struct FitOptions {
+  int lags = 1;
+  Deterministic deterministic = Deterministic::kConstant;
+  CovarianceOptions covariance;          // standard errors, rho SE and Wald tests use this kind
+  std::vector<int> exclude_lags;         // Wald test "all coefficients of lag j are zero"
+  std::vector<GrangerRequest> granger;   // Wald tests of Granger non-causality
+  int criteria_pmax = -1;                // >= 0: lag-order criteria for p = 0..pmax
+};
+
+struct NamedWaldResult {
+  std::string name;
+  Status status;  // not OK: the test could not be computed (message says why)
+  WaldResult result;
+};
+
+struct FitReport {
+  VarSpec spec;
+  std::int64_t rows = 0;    // estimation rows (observations - p)
+  int first_row = 0;        // 0-based data row of the first estimation row (= p)
+  Eigen::MatrixXd phi;      // n x k
+  Eigen::MatrixXd std_error;  // n x k, from the chosen covariance
+  Eigen::MatrixXd sigma;      // df-adjusted
+  Eigen::MatrixXd sigma_ml;
+  CovarianceInfo covariance_info;
+  std::vector<std::complex<double>> eigenvalues;
+  double spectral_radius = 0.0;
+  Status spectral_radius_se_status;  // not OK: SE unavailable, with the reason
+  double spectral_radius_se = 0.0;
+  std::vector<NamedWaldResult> tests;
+  Status criteria_status;
+  std::vector<LagCriteria> criteria;
+};
+
+// data: rows x n (oldest first), names: n variable names. Errors: invalid options, non-finite
+// data (naming the row and variable), too few rows, rank deficiency.
+Status FitVar(const Eigen::Ref<const Eigen::MatrixXd>& data, const std::vector<std::string>& names,
+              const FitOptions& options, FitReport* out);
+
+}  // namespace rimwatch

@@ -1,0 +1,97 @@
+#include "rimwatch/engine/augmented_factor.h"
+
+#include <Eigen/Dense>
+#include <cmath>
+
+namespace rimwatch {
+
+AugmentedFactor::AugmentedFactor(int k, int n)
+    : k_(k), n_(n), r_(Eigen::MatrixXd::Zero(k + n, k + n)), work_(k + n) {}
+
+void AugmentedFactor::Reset() { r_.setZero(); }
+
+void AugmentedFactor::Scale(double factor) {
+  if (factor == 1.0) return;
+  r_ *= std::sqrt(factor);
+}
+
+void AugmentedFactor::Fold(const Eigen::Ref<const Eigen::VectorXd>& z) {
+  const int m = k_ + n_;
+  work_ = z;
+  for (int i = 0; i < m; ++i) {
+    const double zi = work_[i];
+    if (zi == 0.0) continue;
+    const double rii = r_(i, i);
+    const double h = std::hypot(rii, zi);
+    const double c = rii / h;
+    const double s = zi / h;
+    r_(i, i) = h;
+    for (int j = i + 1; j < m; ++j) {
+      const double rij = r_(i, j);
+      const double zj = work_[j];
+      r_(i, j) = c * rij + s * zj;
+      work_[j] = c * zj - s * rij;
+    }
+  }
+}
+
+bool AugmentedFactor::Downdate(const Eigen::Ref<const Eigen::VectorXd>& z, double min_slack) {
+  const int m = k_ + n_;
+  for (int i = 0; i < m; ++i) {
+    if (r_(i, i) == 0.0) return false;
+  }
+  // Solve R' a = z (forward substitution).
+  Eigen::VectorXd a = r_.transpose().triangularView<Eigen::Lower>().solve(z);
+  const double norm2 = a.squaredNorm();
+  if (!std::isfinite(norm2) || 1.0 - norm2 <= min_slack) return false;
+  double alpha = std::sqrt(1.0 - norm2);
+  Eigen::VectorXd c(m), s(m);
+  for (int i = m - 1; i >= 0; --i) {
+    const double scale = alpha + std::abs(a[i]);
+    const double aa = alpha / scale;
+    const double bb = a[i] / scale;
+    const double norm = std::sqrt(aa * aa + bb * bb);
+    c[i] = aa / norm;
+    s[i] = bb / norm;
+    alpha = scale * norm;
+  }
+  for (int j = 0; j < m; ++j) {
+    double xx = 0.0;
+    for (int i = j; i >= 0; --i) {
+      const double t = c[i] * xx + s[i] * r_(i, j);
+      r_(i, j) = c[i] * r_(i, j) - s[i] * xx;
+      xx = t;
+    }
+  }
+  return true;
+}
+
+std::vector<int> AugmentedFactor::DeficientColumns(double tol) const {
+  std::vector<int> out;
+  for (int j = 0; j < k_; ++j) {
+    const double col = r_.col(j).head(j + 1).norm();
+    if (col == 0.0 || std::abs(r_(j, j)) <= tol * col) out.push_back(j);
+  }
+  return out;
+}
+
+Eigen::MatrixXd AugmentedFactor::Coefficients() const {
+  const auto r11 = r_.topLeftCorner(k_, k_).triangularView<Eigen::Upper>();
+  Eigen::MatrixXd phi_t = r11.solve(r_.topRightCorner(k_, n_));
+  return phi_t.transpose();
+}
+
+Eigen::MatrixXd AugmentedFactor::ResidualCrossProduct() const {
+  const auto r22 = r_.bottomRightCorner(n_, n_);
+  return r22.transpose() * r22;
+}
+
+void AugmentedFactor::Predict(const Eigen::Ref<const Eigen::VectorXd>& x,
+                              const Eigen::Ref<const Eigen::VectorXd>& y, Eigen::VectorXd* v,
+                              double* f) const {
+  Eigen::VectorXd u = r_.topLeftCorner(k_, k_).transpose().triangularView<Eigen::Lower>().solve(x);
+  *f = 1.0 + u.squaredNorm();
+  *v = y - r_.topRightCorner(k_, n_).transpose() * u;
+}
+
+}  // namespace rimwatch

@@ -1,0 +1,105 @@
+#include "rimwatch/engine/companion.h"
+
+#include <Eigen/Dense>
+#include <Eigen/Eigenvalues>
+#include <algorithm>
+#include <cmath>
+#include <numeric>
+
+namespace rimwatch {
+namespace {
+
+// Relative distance under which two eigenvalues count as one repeated eigenvalue. A defective
+// (Jordan) pair perturbed by rounding splits by about sqrt(machine epsilon) ~ 1.5e-8.
+constexpr double kRepeatTolerance = 1e-6;
+
+bool ModulusOrder(const std::complex<double>& a, const std::complex<double>& b) {
+  const double ma = std::abs(a);
+  const double mb = std::abs(b);
+  if (ma != mb) return ma > mb;
+  if (a.imag() != b.imag()) return a.imag() > b.imag();
+  return a.real() > b.real();
+}
+
+}  // namespace
+
+Eigen::MatrixXd CompanionMatrix(const VarSpec& spec, const Eigen::Ref<const Eigen::MatrixXd>& phi) {
+  const int n = spec.n();
+  const int np = n * spec.lags;
+  Eigen::MatrixXd f = Eigen::MatrixXd::Zero(np, np);
+  f.topRows(n) = phi.rightCols(np);
+  if (spec.lags > 1) f.bottomLeftCorner(np - n, np - n).setIdentity();
+  return f;
+}
+
+Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eigen::MatrixXd>& phi,
+                                bool with_gradient, CompanionSpectrum* out) {
+  const int n = spec.n();
+  const int k = spec.k();
+  const int d = spec.num_deterministic();
+  const Eigen::MatrixXd f = CompanionMatrix(spec, phi);
+  Eigen::EigenSolver<Eigen::MatrixXd> es(f, with_gradient);
+  if (es.info() != Eigen::Success) {
+    return Status::Numerical("companion eigen solver did not converge");
+  }
+  const Eigen::VectorXcd& lambda = es.eigenvalues();
+  const int np = static_cast<int>(lambda.size());
+  std::vector<int> order(np);
+  std::iota(order.begin(), order.end(), 0);
+  std::sort(order.begin(), order.end(),
+            [&](int a, int b) { return ModulusOrder(lambda[a], lambda[b]); });
+  out->eigenvalues.resize(np);
+  for (int i = 0; i < np; ++i) out->eigenvalues[i] = lambda[order[i]];
+  const int top = order[0];
+  const std::complex<double> lt = lambda[top];
+  out->spectral_radius = std::abs(lt);
+  out->gradient.resize(0);
+  if (!with_gradient) {
+    out->gradient_status = Status::Unavailable("gradient not requested");
+    return Status::Ok();
+  }
+  const double rho = out->spectral_radius;
+  if (rho == 0.0) {
+    out->gradient_status = Status::Unavailable("spectral radius is 0; its gradient is undefined");
+    return Status::Ok();
+  }
+  const double scale = std::max(1.0, rho);
+  for (int j = 0; j < np; ++j) {
+    if (j == top) continue;
+    const std::complex<double> lj = lambda[j];
+    const bool partner = lt.imag() != 0.0 && std::abs(lj - std::conj(lt)) <= kRepeatTolerance * scale;
+    if (partner) continue;
+    if (std::abs(lj - lt) <= kRepeatTolerance * scale) {
+      out->gradient_status = Status::Unavailable(
+          "the top eigenvalue is repeated (defective or multiple); the spectral radius is not "
+          "differentiable there and its delta-method SE is unavailable");
+      return Status::Ok();
+    }
+    if (std::abs(std::abs(lj) - rho) <= kRepeatTolerance * scale) {
+      out->gradient_status = Status::Unavailable(
+          "the spectral radius is attained by distinct eigenvalues of equal modulus; it is not "
+          "differentiable there and its delta-method SE is unavailable");
+      return Status::Ok();
+    }
+  }
+  const Eigen::MatrixXcd& v = es.eigenvectors();
+  Eigen::PartialPivLU<Eigen::MatrixXcd> lu(v);
+  const Eigen::MatrixXcd w = lu.inverse();  // rows of V^{-1} are left eigenvectors, u^H v = 1
+  if (!w.allFinite()) {
+    out->gradient_status = Status::Unavailable("eigenvector matrix is singular (defective F)");
+    return Status::Ok();
+  }
+  out->gradient = Eigen::VectorXd::Zero(n * k);
+  const std::complex<double> cl = std::conj(lt);
+  for (int a = 0; a < n; ++a) {
+    const std::complex<double> ua = w(top, a);
+    for (int b = 0; b < np; ++b) {
+      const std::complex<double> dl = ua * v(b, top);
+      out->gradient[a * k + d + b] = (cl * dl).real() / rho;
+    }
+  }
+  out->gradient_status = Status::Ok();
+  return Status::Ok();
+}
+
+}  // namespace rimwatch

@@ -1,0 +1,120 @@
+#include "rimwatch/engine/var_fit.h"
+
+#include <cmath>
+
+#include "rimwatch/engine/companion.h"
+#include "rimwatch/engine/var_estimator.h"
+
+namespace rimwatch {
+namespace {
+
+Status ResolveNames(const VarSpec& spec, const std::vector<std::string>& names,
+                    std::vector<int>* out) {
+  out->clear();
+  for (const std::string& name : names) {
+    const int i = spec.VariableIndex(name);
+    if (i < 0) return Status::InvalidArgument("granger: unknown variable '" + name + "'");
+    out->push_back(i);
+  }
+  return Status::Ok();
+}
+
+void RunTest(const LinearRestriction& restriction, const CovarianceContext& ctx,
+             FitReport* out) {
+  NamedWaldResult named;
+  named.name = restriction.name;
+  const Eigen::MatrixXd rvr = ctx.Restricted(restriction.r_matrix);
+  named.status = WaldTest(ctx.theta(), restriction, rvr, ctx.info().dof, &named.result);
+  out->tests.push_back(std::move(named));
+}
+
+}  // namespace
+
+Status FitVar(const Eigen::Ref<const Eigen::MatrixXd>& data, const std::vector<std::string>& names,
+              const FitOptions& options, FitReport* out) {
+  VarSpec spec;
+  spec.variables = names;
+  spec.lags = options.lags;
+  spec.deterministic = options.deterministic;
+  spec.window.kind = WindowKind::kExpanding;
+  spec.window.robust_row_cap = std::max<std::size_t>(1, static_cast<std::size_t>(data.rows()));
+  std::string why;
+  if (!spec.IsValid(&why)) return Status::InvalidArgument(why);
+  if (data.cols() != spec.n()) {
+    return Status::InvalidArgument("data has " + std::to_string(data.cols()) +
+                                   " columns for " + std::to_string(spec.n()) + " variables");
+  }
+  const int k = spec.k();
+  if (data.rows() - spec.lags <= k) {
+    return Status::NotEnoughRows("need more than p + k = " + std::to_string(spec.lags + k) +
+                                 " rows for lag order " + std::to_string(spec.lags) + "; have " +
+                                 std::to_string(data.rows()));
+  }
+  *out = FitReport();
+  out->spec = spec;
+  out->first_row = spec.lags;
+  VarEstimator est(spec);
+  for (Eigen::Index r = 0; r < data.rows(); ++r) {
+    UpdateResult u = est.Update(data.row(r).transpose());
+    if (!u.status.ok()) {
+      return Status(u.status.code() == StatusCode::kNonFinite
+                        ? Status::NonFinite("data row " + std::to_string(r + 1) + ": " +
+                                            u.status.message())
+                        : u.status);
+    }
+  }
+  out->rows = est.rows_estimated();
+  Status st = est.Coefficients(&out->phi);
+  if (!st.ok()) return st;
+  st = est.SigmaAdjusted(&out->sigma);
+  if (!st.ok()) return st;
+  st = est.SigmaMl(&out->sigma_ml);
+  if (!st.ok()) return st;
+
+  CovarianceContext ctx;
+  st = CovarianceContext::Create(est, options.covariance, &ctx);
+  if (!st.ok()) return st;
+  out->covariance_info = ctx.info();
+  const Eigen::MatrixXd v = ctx.Full();
+  const int n = spec.n();
+  out->std_error.resize(n, k);
+  for (int eq = 0; eq < n; ++eq) {
+    for (int j = 0; j < k; ++j) out->std_error(eq, j) = std::sqrt(std::max(0.0, v(eq * k + j, eq * k + j)));
+  }
+
+  CompanionSpectrum spectrum;
+  st = ComputeCompanionSpectrum(spec, out->phi, /*with_gradient=*/true, &spectrum);
+  if (!st.ok()) return st;
+  out->eigenvalues = spectrum.eigenvalues;
+  out->spectral_radius = spectrum.spectral_radius;
+  out->spectral_radius_se_status = spectrum.gradient_status;
+  if (spectrum.gradient_status.ok()) {
+    const double var = (spectrum.gradient.transpose() * v * spectrum.gradient)(0, 0);
+    out->spectral_radius_se = std::sqrt(std::max(0.0, var));
+  }
+
+  for (int lag : options.exclude_lags) {
+    LinearRestriction restriction;
+    st = ExcludeLagRestriction(spec, lag, &restriction);
+    if (!st.ok()) return st;
+    RunTest(restriction, ctx, out);
+  }
+  for (const GrangerRequest& g : options.granger) {
+    std::vector<int> cause, effect;
+    st = ResolveNames(spec, g.cause, &cause);
+    if (!st.ok()) return st;
+    st = ResolveNames(spec, g.effect, &effect);
+    if (!st.ok()) return st;
+    LinearRestriction restriction;
+    st = GrangerRestriction(spec, cause, effect, &restriction);
+    if (!st.ok()) return st;
+    RunTest(restriction, ctx, out);
+  }
+  if (options.criteria_pmax >= 0) {
+    out->criteria_status =
+        LagOrderCriteria(data, spec.deterministic, options.criteria_pmax, &out->criteria);
+  }
+  return Status::Ok();
+}
+
+}  // namespace rimwatch
