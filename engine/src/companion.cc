@@ -67,7 +67,8 @@ Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eige
   for (int j = 0; j < np; ++j) {
     if (j == top) continue;
     const std::complex<double> lj = lambda[j];
-    const bool partner = lt.imag() != 0.0 && std::abs(lj - std::conj(lt)) <= kRepeatTolerance * scale;
+    const bool partner =
+        lt.imag() != 0.0 && std::abs(lj - std::conj(lt)) <= kRepeatTolerance * scale;
     if (partner) continue;
     if (std::abs(lj - lt) <= kRepeatTolerance * scale) {
       out->gradient_status = Status::Unavailable(

@@ -26,8 +26,8 @@ const char* CovarianceKindName(CovarianceKind kind) {
 
 bool ParseCovarianceKind(const std::string& text, CovarianceKind* out) {
   static const CovarianceKind kAll[] = {CovarianceKind::kClassical, CovarianceKind::kHC0,
-                                        CovarianceKind::kHC1,      CovarianceKind::kHC2,
-                                        CovarianceKind::kHC3,      CovarianceKind::kHAC};
+                                        CovarianceKind::kHC1,       CovarianceKind::kHC2,
+                                        CovarianceKind::kHC3,       CovarianceKind::kHAC};
   for (CovarianceKind kind : kAll) {
     if (text == CovarianceKindName(kind)) {
       *out = kind;
@@ -74,7 +74,8 @@ Status CovarianceContext::Create(const VarEstimator& est, const CovarianceOption
   Eigen::MatrixXd z = buf.Ordered();
   c.x_ = z.topRows(k);
   Eigen::VectorXd w(static_cast<Eigen::Index>(rows));
-  for (std::size_t i = 0; i < rows; ++i) w[static_cast<Eigen::Index>(i)] = est.WeightOf(buf.Index(i));
+  for (std::size_t i = 0; i < rows; ++i)
+    w[static_cast<Eigen::Index>(i)] = est.WeightOf(buf.Index(i));
   Eigen::MatrixXd e = z.bottomRows(n) - c.phi_ * c.x_;
 
   const bool unit_weights = (w.array() == 1.0).all();
@@ -92,7 +93,8 @@ Status CovarianceContext::Create(const VarEstimator& est, const CovarianceOption
   Eigen::VectorXd scale = w;
   if (options.kind == CovarianceKind::kHC2 || options.kind == CovarianceKind::kHC3) {
     // h_t = w_t |R11^{-T} x_t|^2.
-    const Eigen::MatrixXd u = r.topLeftCorner(k, k).transpose().triangularView<Eigen::Lower>().solve(c.x_);
+    const Eigen::MatrixXd u =
+        r.topLeftCorner(k, k).transpose().triangularView<Eigen::Lower>().solve(c.x_);
     for (Eigen::Index t = 0; t < static_cast<Eigen::Index>(rows); ++t) {
       const double h = w[t] * u.col(t).squaredNorm();
       if (!(h < 1.0 - 1e-12)) {

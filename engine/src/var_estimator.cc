@@ -37,8 +37,7 @@ VarEstimator::VarEstimator(VarSpec spec)
 
 std::int64_t VarEstimator::rows_in_window() const {
   if (spec_.window.kind == WindowKind::kSliding) {
-    return std::min<std::int64_t>(rows_estimated_,
-                                  static_cast<std::int64_t>(spec_.window.rows));
+    return std::min<std::int64_t>(rows_estimated_, static_cast<std::int64_t>(spec_.window.rows));
   }
   return rows_estimated_;
 }
@@ -70,9 +69,9 @@ bool VarEstimator::NextRegressors(Eigen::VectorXd* x) const {
 UpdateResult VarEstimator::Update(const Eigen::Ref<const Eigen::VectorXd>& y) {
   UpdateResult result;
   if (y.size() != n_) {
-    result.status = Status::InvalidArgument("row has " + std::to_string(y.size()) +
-                                            " values; the model has " + std::to_string(n_) +
-                                            " variables");
+    result.status =
+        Status::InvalidArgument("row has " + std::to_string(y.size()) + " values; the model has " +
+                                std::to_string(n_) + " variables");
     return result;
   }
   for (int i = 0; i < n_; ++i) {
@@ -143,8 +142,7 @@ void VarEstimator::Refold() {
 Status VarEstimator::RankStatus() const {
   if (rows_estimated_ == 0) {
     return Status::NotEnoughRows("no estimation rows yet (need " + std::to_string(spec_.lags + 1) +
-                                 " observations for lag order " + std::to_string(spec_.lags) +
-                                 ")");
+                                 " observations for lag order " + std::to_string(spec_.lags) + ")");
   }
   const std::vector<int> bad = factor_.DeficientColumns();
   if (bad.empty()) return Status::Ok();
@@ -175,8 +173,8 @@ Status VarEstimator::SigmaMl(Eigen::MatrixXd* sigma) const {
 Status VarEstimator::SigmaAdjusted(Eigen::MatrixXd* sigma) const {
   const double dof = effective_rows_ - k_;
   if (dof <= 0.0) {
-    return Status::NotEnoughRows("residual degrees of freedom T_eff - k = " +
-                                 std::to_string(dof) + " <= 0");
+    return Status::NotEnoughRows("residual degrees of freedom T_eff - k = " + std::to_string(dof) +
+                                 " <= 0");
   }
   *sigma = factor_.ResidualCrossProduct() / dof;
   return Status::Ok();

@@ -19,8 +19,7 @@ Status ResolveNames(const VarSpec& spec, const std::vector<std::string>& names,
   return Status::Ok();
 }
 
-void RunTest(const LinearRestriction& restriction, const CovarianceContext& ctx,
-             FitReport* out) {
+void RunTest(const LinearRestriction& restriction, const CovarianceContext& ctx, FitReport* out) {
   NamedWaldResult named;
   named.name = restriction.name;
   const Eigen::MatrixXd rvr = ctx.Restricted(restriction.r_matrix);
@@ -41,8 +40,8 @@ Status FitVar(const Eigen::Ref<const Eigen::MatrixXd>& data, const std::vector<s
   std::string why;
   if (!spec.IsValid(&why)) return Status::InvalidArgument(why);
   if (data.cols() != spec.n()) {
-    return Status::InvalidArgument("data has " + std::to_string(data.cols()) +
-                                   " columns for " + std::to_string(spec.n()) + " variables");
+    return Status::InvalidArgument("data has " + std::to_string(data.cols()) + " columns for " +
+                                   std::to_string(spec.n()) + " variables");
   }
   const int k = spec.k();
   if (data.rows() - spec.lags <= k) {
@@ -57,10 +56,10 @@ Status FitVar(const Eigen::Ref<const Eigen::MatrixXd>& data, const std::vector<s
   for (Eigen::Index r = 0; r < data.rows(); ++r) {
     UpdateResult u = est.Update(data.row(r).transpose());
     if (!u.status.ok()) {
-      return Status(u.status.code() == StatusCode::kNonFinite
-                        ? Status::NonFinite("data row " + std::to_string(r + 1) + ": " +
-                                            u.status.message())
-                        : u.status);
+      return Status(
+          u.status.code() == StatusCode::kNonFinite
+              ? Status::NonFinite("data row " + std::to_string(r + 1) + ": " + u.status.message())
+              : u.status);
     }
   }
   out->rows = est.rows_estimated();
@@ -79,7 +78,8 @@ Status FitVar(const Eigen::Ref<const Eigen::MatrixXd>& data, const std::vector<s
   const int n = spec.n();
   out->std_error.resize(n, k);
   for (int eq = 0; eq < n; ++eq) {
-    for (int j = 0; j < k; ++j) out->std_error(eq, j) = std::sqrt(std::max(0.0, v(eq * k + j, eq * k + j)));
+    for (int j = 0; j < k; ++j)
+      out->std_error(eq, j) = std::sqrt(std::max(0.0, v(eq * k + j, eq * k + j)));
   }
 
   CompanionSpectrum spectrum;

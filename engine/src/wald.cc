@@ -23,8 +23,8 @@ double FSurvival(double x, double df1, double df2) {
 
 Status ExcludeLagRestriction(const VarSpec& spec, int lag, LinearRestriction* out) {
   if (lag < 1 || lag > spec.lags) {
-    return Status::InvalidArgument("exclude lag " + std::to_string(lag) +
-                                   ": must lie in 1.." + std::to_string(spec.lags));
+    return Status::InvalidArgument("exclude lag " + std::to_string(lag) + ": must lie in 1.." +
+                                   std::to_string(spec.lags));
   }
   const int n = spec.n();
   const int k = spec.k();
@@ -33,7 +33,8 @@ Status ExcludeLagRestriction(const VarSpec& spec, int lag, LinearRestriction* ou
   out->r_value = Eigen::VectorXd::Zero(n * n);
   int row = 0;
   for (int eq = 0; eq < n; ++eq) {
-    for (int var = 0; var < n; ++var) out->r_matrix(row++, eq * k + spec.LagRegressor(lag, var)) = 1.0;
+    for (int var = 0; var < n; ++var)
+      out->r_matrix(row++, eq * k + spec.LagRegressor(lag, var)) = 1.0;
   }
   return Status::Ok();
 }
@@ -61,7 +62,8 @@ Status GrangerRestriction(const VarSpec& spec, const std::vector<int>& cause,
   std::string name = "granger_";
   for (std::size_t i = 0; i < cause.size(); ++i) name += (i ? "," : "") + spec.variables[cause[i]];
   name += "_to_";
-  for (std::size_t i = 0; i < effect.size(); ++i) name += (i ? "," : "") + spec.variables[effect[i]];
+  for (std::size_t i = 0; i < effect.size(); ++i)
+    name += (i ? "," : "") + spec.variables[effect[i]];
   out->name = name;
   out->r_matrix = Eigen::MatrixXd::Zero(q, n * k);
   out->r_value = Eigen::VectorXd::Zero(q);
@@ -83,7 +85,8 @@ Status UserRestriction(const VarSpec& spec, std::string name, Eigen::MatrixXd r_
                                    std::to_string(r_matrix.cols()));
   }
   if (r_value.size() != r_matrix.rows()) {
-    return Status::InvalidArgument("restriction '" + name + "': r must have one entry per row of R");
+    return Status::InvalidArgument("restriction '" + name +
+                                   "': r must have one entry per row of R");
   }
   if (!r_matrix.allFinite() || !r_value.allFinite()) {
     return Status::NonFinite("restriction '" + name + "': R and r must be finite");
@@ -94,8 +97,9 @@ Status UserRestriction(const VarSpec& spec, std::string name, Eigen::MatrixXd r_
   return Status::Ok();
 }
 
-Status WaldTest(const Eigen::Ref<const Eigen::VectorXd>& theta, const LinearRestriction& restriction,
-                const Eigen::Ref<const Eigen::MatrixXd>& rvr, double dof, WaldResult* out) {
+Status WaldTest(const Eigen::Ref<const Eigen::VectorXd>& theta,
+                const LinearRestriction& restriction, const Eigen::Ref<const Eigen::MatrixXd>& rvr,
+                double dof, WaldResult* out) {
   const Eigen::Index q = restriction.r_matrix.rows();
   if (dof <= 0.0) return Status::NotEnoughRows("Wald test needs T_eff - k > 0");
   const Eigen::VectorXd d = restriction.r_matrix * theta - restriction.r_value;
@@ -105,8 +109,9 @@ Status WaldTest(const Eigen::Ref<const Eigen::VectorXd>& theta, const LinearRest
   const double top = es.eigenvalues().maxCoeff();
   const double tol = 1e-12 * static_cast<double>(q) * std::max(top, 0.0);
   if (!(top > 0.0) || es.eigenvalues().minCoeff() <= tol) {
-    return Status::RankDeficient("restriction '" + restriction.name +
-                                 "': R V R' is singular (redundant rows or a degenerate covariance)");
+    return Status::RankDeficient(
+        "restriction '" + restriction.name +
+        "': R V R' is singular (redundant rows or a degenerate covariance)");
   }
   const Eigen::VectorXd proj = es.eigenvectors().transpose() * d;
   const double w = (proj.array().square() / es.eigenvalues().array()).sum();

@@ -50,8 +50,8 @@ class AugmentedFactor {
   Eigen::MatrixXd ResidualCrossProduct() const;
   // One-step prediction for a new row before it is folded in:
   //   u = R11^{-T} x,  f = 1 + |u|^2 = 1 + x'(X'WX)^{-1}x,  v = y - Phi x = y - R12' u.
-  void Predict(const Eigen::Ref<const Eigen::VectorXd>& x, const Eigen::Ref<const Eigen::VectorXd>& y,
-               Eigen::VectorXd* v, double* f) const;
+  void Predict(const Eigen::Ref<const Eigen::VectorXd>& x,
+               const Eigen::Ref<const Eigen::VectorXd>& y, Eigen::VectorXd* v, double* f) const;
 
  private:
   int k_;

@@ -6,9 +6,9 @@
 //
 // Delta method: for a simple eigenvalue lambda with right eigenvector v and left eigenvector u
 // (u^H F = lambda u^H), d lambda / d F_ab = conj(u_a) v_b / (u^H v) (Magnus & Neudecker 1999,
-// Ch. 8), and d|lambda| = Re(conj(lambda) d lambda) / |lambda|. Only the first n rows of F depend on
-// theta, so the gradient has n k entries (zero on deterministic terms) and
-// SE(rho) = sqrt(g' V g). A complex pair shares one modulus and gives the same gradient.
+// Ch. 8), and d|lambda| = Re(conj(lambda) d lambda) / |lambda|. Only the first n rows of F depend
+// on theta, so the gradient has n k entries (zero on deterministic terms) and SE(rho) = sqrt(g' V
+// g). A complex pair shares one modulus and gives the same gradient.
 #pragma once
 
 #include <Eigen/Core>

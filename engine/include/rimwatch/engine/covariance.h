@@ -2,8 +2,8 @@
 //
 // With A = (X'WX)^{-1}, residuals e_t = y_t - Phi x_t over the buffered rows and
 // g_t = w_t e_t (x) x_t:
-//   classical  V = Omega (x) A (X'W^2X) A       (= Omega (x) A for unit weights), Omega = df-adjusted
-//   HC0        V = (I (x) A) [sum_t g_t g_t'] (I (x) A)                 (White 1980)
+//   classical  V = Omega (x) A (X'W^2X) A       (= Omega (x) A for unit weights), Omega =
+//   df-adjusted HC0        V = (I (x) A) [sum_t g_t g_t'] (I (x) A)                 (White 1980)
 //   HC1        HC0 * T / (T - k)
 //   HC2, HC3   e_t replaced by e_t / sqrt(1 - h_t), e_t / (1 - h_t), h_t = w_t x_t' A x_t
 //              (MacKinnon & White 1985)
@@ -59,7 +59,7 @@ class CovarianceContext {
   Eigen::MatrixXd Restricted(const Eigen::Ref<const Eigen::MatrixXd>& r) const;
 
   const Eigen::MatrixXd& phi() const { return phi_; }  // n x k
-  Eigen::VectorXd theta() const;                        // vec(Phi'), n k
+  Eigen::VectorXd theta() const;                       // vec(Phi'), n k
   const Eigen::MatrixXd& omega() const { return omega_; }
   const CovarianceInfo& info() const { return info_; }
   const CovarianceOptions& options() const { return options_; }

@@ -33,7 +33,9 @@ class Status {
   static Status InvalidArgument(std::string msg) {
     return Status(StatusCode::kInvalidArgument, std::move(msg));
   }
-  static Status NonFinite(std::string msg) { return Status(StatusCode::kNonFinite, std::move(msg)); }
+  static Status NonFinite(std::string msg) {
+    return Status(StatusCode::kNonFinite, std::move(msg));
+  }
   static Status RankDeficient(std::string msg) {
     return Status(StatusCode::kRankDeficient, std::move(msg));
   }
@@ -43,7 +45,9 @@ class Status {
   static Status Unavailable(std::string msg) {
     return Status(StatusCode::kUnavailable, std::move(msg));
   }
-  static Status Numerical(std::string msg) { return Status(StatusCode::kNumerical, std::move(msg)); }
+  static Status Numerical(std::string msg) {
+    return Status(StatusCode::kNumerical, std::move(msg));
+  }
 
   bool ok() const { return code_ == StatusCode::kOk; }
   StatusCode code() const { return code_; }

@@ -26,10 +26,10 @@ struct GrangerRequest {
 struct FitOptions {
   int lags = 1;
   Deterministic deterministic = Deterministic::kConstant;
-  CovarianceOptions covariance;          // standard errors, rho SE and Wald tests use this kind
-  std::vector<int> exclude_lags;         // Wald test "all coefficients of lag j are zero"
-  std::vector<GrangerRequest> granger;   // Wald tests of Granger non-causality
-  int criteria_pmax = -1;                // >= 0: lag-order criteria for p = 0..pmax
+  CovarianceOptions covariance;         // standard errors, rho SE and Wald tests use this kind
+  std::vector<int> exclude_lags;        // Wald test "all coefficients of lag j are zero"
+  std::vector<GrangerRequest> granger;  // Wald tests of Granger non-causality
+  int criteria_pmax = -1;               // >= 0: lag-order criteria for p = 0..pmax
 };
 
 struct NamedWaldResult {
@@ -40,9 +40,9 @@ struct NamedWaldResult {
 
 struct FitReport {
   VarSpec spec;
-  std::int64_t rows = 0;    // estimation rows (observations - p)
-  int first_row = 0;        // 0-based data row of the first estimation row (= p)
-  Eigen::MatrixXd phi;      // n x k
+  std::int64_t rows = 0;      // estimation rows (observations - p)
+  int first_row = 0;          // 0-based data row of the first estimation row (= p)
+  Eigen::MatrixXd phi;        // n x k
   Eigen::MatrixXd std_error;  // n x k, from the chosen covariance
   Eigen::MatrixXd sigma;      // df-adjusted
   Eigen::MatrixXd sigma_ml;

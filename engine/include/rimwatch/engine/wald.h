@@ -45,8 +45,9 @@ struct WaldResult {
 // REQUIRES: rvr is q x q (R V R'), theta has n k entries. Fails with kRankDeficient when R V R'
 // is singular to working accuracy (e.g. redundant restriction rows), or kNotEnoughRows when
 // dof <= 0.
-Status WaldTest(const Eigen::Ref<const Eigen::VectorXd>& theta, const LinearRestriction& restriction,
-                const Eigen::Ref<const Eigen::MatrixXd>& rvr, double dof, WaldResult* out);
+Status WaldTest(const Eigen::Ref<const Eigen::VectorXd>& theta,
+                const LinearRestriction& restriction, const Eigen::Ref<const Eigen::MatrixXd>& rvr,
+                double dof, WaldResult* out);
 
 // Upper-tail probabilities (Boost.Math).
 double ChiSquaredSurvival(double x, double df);
