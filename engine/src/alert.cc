@@ -1,0 +1,66 @@
+#include "rimwatch/engine/alert.h"
+
+#include <sstream>
+
+namespace rimwatch {
+
+const char* AlertLevelName(AlertLevel level) {
+  switch (level) {
+    case AlertLevel::kNone:
+      return "none";
+    case AlertLevel::kWarn:
+      return "warn";
+    case AlertLevel::kCritical:
+      return "critical";
+  }
+  return "?";
+}
+
+std::optional<AlertEvent> AlertTracker::Observe(std::int64_t row, const std::string& period,
+                                                const MonitorReading& reading) {
+  AlertLevel now = AlertLevel::kNone;
+  if (reading.armed) {
+    if (reading.statistic >= reading.critical) {
+      now = AlertLevel::kCritical;
+    } else if (reading.statistic >= reading.warn) {
+      now = AlertLevel::kWarn;
+    }
+  }
+  AlertEvent ev;
+  ev.row = row;
+  ev.period = period;
+  ev.model = model_;
+  ev.monitor = monitor_;
+  ev.statistic = reading.statistic;
+  if (now > level_) {
+    const bool cooling = level_ == AlertLevel::kNone && row - last_clear_row_ <= rule_.cooldown;
+    if (cooling) return std::nullopt;
+    level_ = now;
+    rows_below_clear_ = 0;
+    ev.raised = true;
+    ev.level = now;
+    ev.threshold = now == AlertLevel::kCritical ? reading.critical : reading.warn;
+    ev.message = reading.explanation;
+    return ev;
+  }
+  if (level_ == AlertLevel::kNone) return std::nullopt;
+  // An alert is active: count rows below the clear level (an unarmed monitor counts as below:
+  // it is re-training and has nothing to say).
+  const bool below = !reading.armed || reading.statistic < reading.clear;
+  rows_below_clear_ = below ? rows_below_clear_ + 1 : 0;
+  if (rows_below_clear_ < rule_.hysteresis) return std::nullopt;
+  ev.raised = false;
+  ev.level = level_;
+  ev.threshold = reading.clear;
+  std::ostringstream msg;
+  msg << monitor_ << " back to normal: " << (reading.armed ? "the statistic stayed below " : "")
+      << (reading.armed ? std::to_string(reading.clear) : "the monitor restarted on fresh rows")
+      << " for " << rule_.hysteresis << " rows.";
+  ev.message = msg.str();
+  level_ = AlertLevel::kNone;
+  rows_below_clear_ = 0;
+  last_clear_row_ = row;
+  return ev;
+}
+
+}  // namespace rimwatch
