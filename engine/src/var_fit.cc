@@ -19,15 +19,55 @@ Status ResolveNames(const VarSpec& spec, const std::vector<std::string>& names,
   return Status::Ok();
 }
 
-void RunTest(const LinearRestriction& restriction, const CovarianceContext& ctx, FitReport* out) {
-  NamedWaldResult named;
-  named.name = restriction.name;
-  const Eigen::MatrixXd rvr = ctx.Restricted(restriction.r_matrix);
-  named.status = WaldTest(ctx.theta(), restriction, rvr, ctx.info().dof, &named.result);
-  out->tests.push_back(std::move(named));
-}
-
 }  // namespace
+
+Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covariance,
+                         const std::vector<LinearRestriction>& restrictions, FitReport* out) {
+  const VarSpec& spec = est.spec();
+  out->spec = spec;
+  Status st = est.Coefficients(&out->phi);
+  if (!st.ok()) return st;
+  st = est.SigmaAdjusted(&out->sigma);
+  if (!st.ok()) return st;
+  st = est.SigmaMl(&out->sigma_ml);
+  if (!st.ok()) return st;
+
+  CovarianceContext ctx;
+  st = CovarianceContext::Create(est, covariance, &ctx);
+  if (!st.ok()) return st;
+  out->covariance_info = ctx.info();
+  const Eigen::MatrixXd v = ctx.Full();
+  const int n = spec.n();
+  const int k = spec.k();
+  out->std_error.resize(n, k);
+  for (int eq = 0; eq < n; ++eq) {
+    for (int j = 0; j < k; ++j) {
+      out->std_error(eq, j) = std::sqrt(std::max(0.0, v(eq * k + j, eq * k + j)));
+    }
+  }
+
+  CompanionSpectrum spectrum;
+  st = ComputeCompanionSpectrum(spec, out->phi, /*with_gradient=*/true, &spectrum);
+  if (!st.ok()) return st;
+  out->eigenvalues = spectrum.eigenvalues;
+  out->spectral_radius = spectrum.spectral_radius;
+  out->spectral_radius_se_status = spectrum.gradient_status;
+  if (spectrum.gradient_status.ok()) {
+    const double var = (spectrum.gradient.transpose() * v * spectrum.gradient)(0, 0);
+    out->spectral_radius_se = std::sqrt(std::max(0.0, var));
+  }
+
+  out->tests.clear();
+  const Eigen::VectorXd theta = ctx.theta();
+  for (const LinearRestriction& restriction : restrictions) {
+    NamedWaldResult named;
+    named.name = restriction.name;
+    const Eigen::MatrixXd rvr = ctx.Restricted(restriction.r_matrix);
+    named.status = WaldTest(theta, restriction, rvr, ctx.info().dof, &named.result);
+    out->tests.push_back(std::move(named));
+  }
+  return Status::Ok();
+}
 
 Status FitVar(const Eigen::Ref<const Eigen::MatrixXd>& data, const std::vector<std::string>& names,
               const FitOptions& options, FitReport* out) {
@@ -62,54 +102,27 @@ Status FitVar(const Eigen::Ref<const Eigen::MatrixXd>& data, const std::vector<s
               : u.status);
     }
   }
-  out->rows = est.rows_estimated();
-  Status st = est.Coefficients(&out->phi);
-  if (!st.ok()) return st;
-  st = est.SigmaAdjusted(&out->sigma);
-  if (!st.ok()) return st;
-  st = est.SigmaMl(&out->sigma_ml);
-  if (!st.ok()) return st;
-
-  CovarianceContext ctx;
-  st = CovarianceContext::Create(est, options.covariance, &ctx);
-  if (!st.ok()) return st;
-  out->covariance_info = ctx.info();
-  const Eigen::MatrixXd v = ctx.Full();
-  const int n = spec.n();
-  out->std_error.resize(n, k);
-  for (int eq = 0; eq < n; ++eq) {
-    for (int j = 0; j < k; ++j)
-      out->std_error(eq, j) = std::sqrt(std::max(0.0, v(eq * k + j, eq * k + j)));
-  }
-
-  CompanionSpectrum spectrum;
-  st = ComputeCompanionSpectrum(spec, out->phi, /*with_gradient=*/true, &spectrum);
-  if (!st.ok()) return st;
-  out->eigenvalues = spectrum.eigenvalues;
-  out->spectral_radius = spectrum.spectral_radius;
-  out->spectral_radius_se_status = spectrum.gradient_status;
-  if (spectrum.gradient_status.ok()) {
-    const double var = (spectrum.gradient.transpose() * v * spectrum.gradient)(0, 0);
-    out->spectral_radius_se = std::sqrt(std::max(0.0, var));
-  }
-
+  std::vector<LinearRestriction> restrictions;
   for (int lag : options.exclude_lags) {
     LinearRestriction restriction;
-    st = ExcludeLagRestriction(spec, lag, &restriction);
+    Status st = ExcludeLagRestriction(spec, lag, &restriction);
     if (!st.ok()) return st;
-    RunTest(restriction, ctx, out);
+    restrictions.push_back(std::move(restriction));
   }
   for (const GrangerRequest& g : options.granger) {
     std::vector<int> cause, effect;
-    st = ResolveNames(spec, g.cause, &cause);
+    Status st = ResolveNames(spec, g.cause, &cause);
     if (!st.ok()) return st;
     st = ResolveNames(spec, g.effect, &effect);
     if (!st.ok()) return st;
     LinearRestriction restriction;
     st = GrangerRestriction(spec, cause, effect, &restriction);
     if (!st.ok()) return st;
-    RunTest(restriction, ctx, out);
+    restrictions.push_back(std::move(restriction));
   }
+  Status st = SummarizeEstimate(est, options.covariance, restrictions, out);
+  if (!st.ok()) return st;
+  out->rows = est.rows_estimated();
   if (options.criteria_pmax >= 0) {
     out->criteria_status =
         LagOrderCriteria(data, spec.deterministic, options.criteria_pmax, &out->criteria);

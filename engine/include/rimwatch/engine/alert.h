@@ -20,7 +20,7 @@ enum class AlertLevel { kNone = 0, kWarn = 1, kCritical = 2 };
 const char* AlertLevelName(AlertLevel level);  // "none" | "warn" | "critical"
 
 struct MonitorReading {
-  bool armed = false;     // false: training, or the statistic is unavailable this row
+  bool armed = false;  // false: training, or the statistic is unavailable this row
   double statistic = 0.0;
   double warn = std::numeric_limits<double>::infinity();
   double critical = std::numeric_limits<double>::infinity();
@@ -31,14 +31,14 @@ struct MonitorReading {
 };
 
 struct AlertEvent {
-  std::int64_t row = 0;      // model row number (1-based estimation row of the model)
-  std::string period;        // period label of that row
+  std::int64_t row = 0;  // model row number (1-based estimation row of the model)
+  std::string period;    // period label of that row
   std::string model;
-  std::string monitor;       // e.g. "stability", "cusum.a", "restriction.b-does-not-lead-a"
-  bool raised = true;        // false: cleared
+  std::string monitor;  // e.g. "stability", "cusum.a", "restriction.b-does-not-lead-a"
+  bool raised = true;   // false: cleared
   AlertLevel level = AlertLevel::kNone;  // level raised to, or the level that cleared
   double statistic = 0.0;
-  double threshold = 0.0;    // the level crossed (raised) or the clear level (cleared)
+  double threshold = 0.0;  // the level crossed (raised) or the clear level (cleared)
   std::string message;
 };
 

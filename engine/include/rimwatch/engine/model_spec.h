@@ -54,11 +54,11 @@ struct AlarmSpec {
 };
 
 struct ModelSpec {
-  std::string name;             // [A-Za-z0-9_.-]+, at most 64 characters
-  VarSpec var;                  // variables, lags, deterministic, window
+  std::string name;                   // [A-Za-z0-9_.-]+, at most 64 characters
+  VarSpec var;                        // variables, lags, deterministic, window
   std::vector<Transform> transforms;  // one per variable (level by default)
   InferenceSpec inference;
-  int training_rows = 200;      // rows before the monitors arm; >= k + 10
+  int training_rows = 200;  // rows before the monitors arm; >= k + 10
   StabilitySpec stability;
   std::vector<RestrictionSpec> restrictions;
   AlarmSpec alarms;

@@ -13,6 +13,7 @@
 #include "rimwatch/engine/covariance.h"
 #include "rimwatch/engine/lag_order.h"
 #include "rimwatch/engine/status.h"
+#include "rimwatch/engine/var_estimator.h"
 #include "rimwatch/engine/var_spec.h"
 #include "rimwatch/engine/wald.h"
 
@@ -55,6 +56,12 @@ struct FitReport {
   Status criteria_status;
   std::vector<LagCriteria> criteria;
 };
+
+// The current estimate of any estimator, summarised: coefficients with standard errors of the
+// chosen kind, sigmas, companion eigenvalues, rho with its SE, and one Wald test per restriction.
+// Fills every field of *out except rows/first_row/criteria. Shared by FitVar and the Monitor.
+Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covariance,
+                         const std::vector<LinearRestriction>& restrictions, FitReport* out);
 
 // data: rows x n (oldest first), names: n variable names. Errors: invalid options, non-finite
 // data (naming the row and variable), too few rows, rank deficiency.
