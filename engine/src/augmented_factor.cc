@@ -6,7 +6,12 @@
 namespace rimwatch {
 
 AugmentedFactor::AugmentedFactor(int k, int n)
-    : k_(k), n_(n), r_(Eigen::MatrixXd::Zero(k + n, k + n)), work_(k + n) {}
+    : k_(k),
+      n_(n),
+      r_(Eigen::MatrixXd::Zero(k + n, k + n)),
+      work_(k + n),
+      cos_(k + n),
+      sin_(k + n) {}
 
 void AugmentedFactor::Reset() { r_.setZero(); }
 
@@ -41,11 +46,13 @@ bool AugmentedFactor::Downdate(const Eigen::Ref<const Eigen::VectorXd>& z, doubl
     if (r_(i, i) == 0.0) return false;
   }
   // Solve R' a = z (forward substitution).
-  Eigen::VectorXd a = r_.transpose().triangularView<Eigen::Lower>().solve(z);
+  Eigen::VectorXd& a = work_;
+  a = r_.transpose().triangularView<Eigen::Lower>().solve(z);
   const double norm2 = a.squaredNorm();
   if (!std::isfinite(norm2) || 1.0 - norm2 <= min_slack) return false;
   double alpha = std::sqrt(1.0 - norm2);
-  Eigen::VectorXd c(m), s(m);
+  Eigen::VectorXd& c = cos_;
+  Eigen::VectorXd& s = sin_;
   for (int i = m - 1; i >= 0; --i) {
     const double scale = alpha + std::abs(a[i]);
     const double aa = alpha / scale;

@@ -19,7 +19,8 @@ Status LagOrderCriteria(const Eigen::Ref<const Eigen::MatrixXd>& data, Determini
                                  std::to_string(pmax) + " presample rows");
   }
   VarSpec spec;
-  for (int i = 0; i < n; ++i) spec.variables.push_back("y" + std::to_string(i + 1));
+  for (int i = 0; i < n; ++i)
+    spec.variables.push_back(std::string(1, 'y').append(std::to_string(i + 1)));
   spec.deterministic = deterministic;
   for (int p = 0; p <= pmax; ++p) {
     spec.lags = p;

@@ -23,7 +23,11 @@ std::string VarSpec::RegressorName(int j) const {
   if (j < d) return j == 0 ? "const" : "trend";
   const int lag = (j - d) / n() + 1;
   const int var = (j - d) % n();
-  return "L" + std::to_string(lag) + "." + variables[var];
+  std::string name = std::to_string(lag);  // appended piecewise: GCC 12 -Wrestrict false positive
+  name.insert(0, 1, 'L');
+  name += '.';
+  name += variables[var];
+  return name;
 }
 
 int VarSpec::VariableIndex(const std::string& name) const {

@@ -57,7 +57,9 @@ class AugmentedFactor {
   int k_;
   int n_;
   Eigen::MatrixXd r_;
-  Eigen::VectorXd work_;
+  Eigen::VectorXd work_;  // scratch for Fold and Downdate: no allocation per row
+  Eigen::VectorXd cos_;
+  Eigen::VectorXd sin_;
 };
 
 }  // namespace rimwatch
