@@ -1,5 +1,6 @@
 #include "rimwatch/engine/var_fit.h"
 
+#include <algorithm>
 #include <cmath>
 
 #include "rimwatch/engine/companion.h"

@@ -1,0 +1,317 @@
+#include "fit_output.h"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdarg>
+#include <cstdio>
+#include <limits>
+#include <ostream>
+#include <string>
+
+namespace rimwatch::cli {
+namespace {
+
+using json = nlohmann::ordered_json;
+
+// ---- the meaning of regressor j (var_spec.h: const, trend, then lag 1 of every variable, ...)
+
+struct Term {
+  const char* kind;  // "const" | "trend" | "lag"
+  int var = -1;      // lag terms only
+  int lag = 0;       // lag terms only, 1-based
+};
+
+Term TermOf(const VarSpec& spec, int j) {
+  const int d = spec.num_deterministic();
+  if (j < d) return Term{j == 0 ? "const" : "trend"};
+  return Term{"lag", (j - d) % spec.n(), (j - d) / spec.n() + 1};
+}
+
+// ---- JSON
+
+json Period(const CsvTable& table, std::size_t row) {
+  if (table.has_period) return table.periods[row];
+  return static_cast<std::int64_t>(row + 1);
+}
+
+json MatrixJson(const Eigen::MatrixXd& m) {
+  json rows = json::array();
+  for (Eigen::Index i = 0; i < m.rows(); ++i) {
+    json row = json::array();
+    for (Eigen::Index j = 0; j < m.cols(); ++j) row.push_back(m(i, j));
+    rows.push_back(std::move(row));
+  }
+  return rows;
+}
+
+json CoefficientsJson(const FitReport& report) {
+  const VarSpec& spec = report.spec;
+  json list = json::array();
+  for (int eq = 0; eq < spec.n(); ++eq) {
+    for (int j = 0; j < spec.k(); ++j) {
+      const Term term = TermOf(spec, j);
+      const bool lag = term.var >= 0;
+      list.push_back({{"equation", spec.variables[eq]},
+                      {"term", term.kind},
+                      {"variable", lag ? json(spec.variables[term.var]) : json(nullptr)},
+                      {"lag", lag ? json(term.lag) : json(nullptr)},
+                      {"estimate", report.phi(eq, j)},
+                      {"std_error", report.std_error(eq, j)}});
+    }
+  }
+  return list;
+}
+
+json EigenvaluesJson(const FitReport& report) {
+  json list = json::array();
+  for (const std::complex<double>& z : report.eigenvalues) {
+    list.push_back({{"re", z.real()}, {"im", z.imag()}, {"modulus", std::abs(z)}});
+  }
+  return list;
+}
+
+json SpectralRadiusJson(const FitReport& report) {
+  json out = {{"value", report.spectral_radius}};
+  if (report.spectral_radius_se_status.ok()) {
+    out["std_error"] = report.spectral_radius_se;
+  } else {
+    out["std_error"] = nullptr;
+    out["std_error_unavailable"] = report.spectral_radius_se_status.message();
+  }
+  return out;
+}
+
+json CovarianceJson(const FitOptions& options, const FitReport& report) {
+  json out = {{"kind", CovarianceKindName(options.covariance.kind)},
+              {"rows_used", report.covariance_info.rows_used}};
+  if (options.covariance.kind == CovarianceKind::kHAC) {
+    out["hac_lags"] = report.covariance_info.hac_lags;
+  }
+  return out;
+}
+
+json TestsJson(const FitReport& report) {
+  json list = json::array();
+  for (const NamedWaldResult& t : report.tests) {
+    json item = {{"name", t.name}};
+    const WaldResult& r = t.result;
+    const bool ok = t.status.ok();
+    const auto value = [ok](auto x) { return ok ? json(x) : json(nullptr); };
+    item["statistic"] = value(r.statistic);
+    item["df"] = value(r.df);
+    item["p_value"] = value(r.p_value);
+    item["f_statistic"] = value(r.f_statistic);
+    item["f_df1"] = value(r.f_df1);
+    item["f_df2"] = value(r.f_df2);
+    item["f_p_value"] = value(r.f_p_value);
+    if (!ok) item["unavailable"] = t.status.ToString();
+    list.push_back(std::move(item));
+  }
+  return list;
+}
+
+json CriteriaJson(const FitReport& report) {
+  json out = json::object();
+  for (const LagCriteria& c : report.criteria) {
+    json row;
+    if (c.status.ok()) {
+      row = {{"aic", c.aic}, {"hq", c.hq}, {"bic", c.bic}, {"fpe", c.fpe}};
+    } else {
+      row = {{"aic", nullptr}, {"hq", nullptr}, {"bic", nullptr}, {"fpe", nullptr}};
+      row["unavailable"] = c.status.ToString();
+    }
+    out[std::to_string(c.lags)] = std::move(row);
+  }
+  return out;
+}
+
+// ---- text
+
+std::string Format(const char* fmt, ...) __attribute__((format(printf, 1, 2)));
+std::string Format(const char* fmt, ...) {
+  char buffer[512];
+  va_list args;
+  va_start(args, fmt);
+  const int size = std::vsnprintf(buffer, sizeof buffer, fmt, args);
+  va_end(args);
+  return std::string(buffer, static_cast<std::size_t>(std::clamp(size, 0, 511)));
+}
+
+std::string PValue(double p) { return p >= 1e-4 ? Format("%.4f", p) : Format("%.2e", p); }
+
+std::string RegressorLabel(const VarSpec& spec, int j) {
+  const Term term = TermOf(spec, j);
+  if (term.var < 0) return term.kind;
+  return spec.variables[term.var] + "[t-" + std::to_string(term.lag) + "]";
+}
+
+int LabelWidth(const VarSpec& spec) {
+  std::size_t width = 9;  // "regressor"
+  for (int j = 0; j < spec.k(); ++j) width = std::max(width, RegressorLabel(spec, j).size());
+  return static_cast<int>(width);
+}
+
+void WriteHeader(const CsvTable& table, const FitOptions& options, const FitReport& report,
+                 std::ostream& out) {
+  const VarSpec& spec = report.spec;
+  std::string names;
+  for (const std::string& v : spec.variables) names += (names.empty() ? "" : ", ") + v;
+  out << "VAR(" << spec.lags << ") fitted to " << table.path << "\n";
+  out << "  variables      " << names << "\n";
+  out << "  deterministic  " << DeterministicName(spec.deterministic) << "\n";
+  out << "  sample         " << report.rows << " rows, period "
+      << table.PeriodLabel(static_cast<std::size_t>(report.first_row)) << " to "
+      << table.PeriodLabel(table.rows() - 1) << " (the " << spec.lags
+      << " rows before it serve as lags)\n";
+  out << "  regressors     " << spec.k() << " per equation, " << spec.n() * spec.k()
+      << " in all; residual df " << report.rows - spec.k() << "\n";
+  out << "  std. errors    " << CovarianceKindName(options.covariance.kind) << " on "
+      << report.covariance_info.rows_used << " rows";
+  if (options.covariance.kind == CovarianceKind::kHAC) {
+    out << ", Bartlett lag " << report.covariance_info.hac_lags;
+  }
+  out << "\n";
+}
+
+void WriteEquation(const FitReport& report, int eq, std::ostream& out) {
+  const VarSpec& spec = report.spec;
+  const int w = LabelWidth(spec);
+  out << "\nEquation for " << spec.variables[eq]
+      << Format("   (residual s.d. %.6g)\n", std::sqrt(report.sigma(eq, eq)));
+  out << Format("  %-*s %14s %14s %9s\n", w, "regressor", "estimate", "std. error", "t");
+  for (int j = 0; j < spec.k(); ++j) {
+    const double b = report.phi(eq, j);
+    const double se = report.std_error(eq, j);
+    const std::string t = se > 0.0 ? Format("%9.3f", b / se) : Format("%9s", "n/a");
+    out << Format("  %-*s %14.6g %14.6g %s\n", w, RegressorLabel(spec, j).c_str(), b, se,
+                  t.c_str());
+  }
+}
+
+void WriteSigma(const FitReport& report, std::ostream& out) {
+  const VarSpec& spec = report.spec;
+  int w = 6;
+  for (const std::string& v : spec.variables) w = std::max(w, static_cast<int>(v.size()));
+  out << "\nResidual covariance (cross-product / (T - k) = / " << report.rows - spec.k() << ")\n";
+  out << Format("  %-*s", w, "");
+  for (const std::string& v : spec.variables) out << Format(" %14s", v.c_str());
+  out << "\n";
+  for (int i = 0; i < spec.n(); ++i) {
+    out << Format("  %-*s", w, spec.variables[i].c_str());
+    for (int j = 0; j < spec.n(); ++j) out << Format(" %14.6g", report.sigma(i, j));
+    out << "\n";
+  }
+}
+
+void WriteStability(const FitOptions& options, const FitReport& report, std::ostream& out) {
+  out << "\nCompanion eigenvalues (largest modulus first)\n";
+  out << Format("  %4s %12s %12s %12s\n", "#", "real", "imaginary", "modulus");
+  for (std::size_t i = 0; i < report.eigenvalues.size(); ++i) {
+    const std::complex<double> z = report.eigenvalues[i];
+    out << Format("  %4zu %12.6f %12.6f %12.6f\n", i + 1, z.real(), z.imag(), std::abs(z));
+  }
+  const double rho = report.spectral_radius;
+  out << Format("  spectral radius %.6f", rho);
+  if (report.spectral_radius_se_status.ok()) {
+    out << Format(", std. error %.6f (delta method, %s)", report.spectral_radius_se,
+                  CovarianceKindName(options.covariance.kind));
+  } else {
+    out << ", std. error unavailable: " << report.spectral_radius_se_status.message();
+  }
+  out << (rho < 1.0 ? "\n  every eigenvalue lies inside the unit circle: the estimate is stable\n"
+                    : "\n  an eigenvalue lies on or outside the unit circle: the estimate is "
+                      "not stable\n");
+}
+
+void WriteTests(const FitOptions& options, const FitReport& report, std::ostream& out) {
+  if (report.tests.empty()) return;
+  std::size_t w = 10;  // "hypothesis"
+  for (const NamedWaldResult& t : report.tests) w = std::max(w, t.name.size());
+  const int iw = static_cast<int>(w);
+  out << "\nWald tests (" << CovarianceKindName(options.covariance.kind)
+      << " covariance; chi-squared form, then F form W/q against F(q, T - k))\n";
+  out << Format("  %-*s %12s %4s %10s   %10s %4s %6s %10s\n", iw, "hypothesis", "W", "q", "p-value",
+                "F", "df1", "df2", "p-value");
+  for (const NamedWaldResult& t : report.tests) {
+    if (!t.status.ok()) {
+      out << Format("  %-*s unavailable: %s\n", iw, t.name.c_str(), t.status.ToString().c_str());
+      continue;
+    }
+    const WaldResult& r = t.result;
+    out << Format("  %-*s %12.4f %4d %10s   %10.4f %4d %6.0f %10s\n", iw, t.name.c_str(),
+                  r.statistic, r.df, PValue(r.p_value).c_str(), r.f_statistic, r.f_df1, r.f_df2,
+                  PValue(r.f_p_value).c_str());
+  }
+}
+
+// Index in report.criteria of the smallest value of `field` among the computed rows, or -1.
+int ArgMin(const std::vector<LagCriteria>& rows, double LagCriteria::*field) {
+  int best = -1;
+  for (std::size_t i = 0; i < rows.size(); ++i) {
+    if (!rows[i].status.ok()) continue;
+    if (best < 0 || rows[i].*field < rows[static_cast<std::size_t>(best)].*field) {
+      best = static_cast<int>(i);
+    }
+  }
+  return best;
+}
+
+void WriteCriteria(const FitOptions& options, const FitReport& report, std::ostream& out) {
+  if (options.criteria_pmax < 0) return;
+  const std::vector<LagCriteria>& rows = report.criteria;
+  double LagCriteria::*const fields[] = {&LagCriteria::aic, &LagCriteria::hq, &LagCriteria::bic,
+                                         &LagCriteria::fpe};
+  int best[4];
+  for (int c = 0; c < 4; ++c) best[c] = ArgMin(rows, fields[c]);
+  out << "\nLag-order criteria (p = 0.." << options.criteria_pmax << " on the same "
+      << static_cast<long>(report.rows + report.spec.lags) - options.criteria_pmax
+      << " rows; * marks the minimum of each column)\n";
+  out << Format("  %4s %15s %15s %15s %15s\n", "p", "AIC", "HQ", "BIC", "FPE");
+  for (std::size_t i = 0; i < rows.size(); ++i) {
+    std::string line = Format("  %4d", rows[i].lags);
+    if (!rows[i].status.ok()) {
+      out << line << "  unavailable: " << rows[i].status.ToString() << "\n";
+      continue;
+    }
+    for (int c = 0; c < 4; ++c) {
+      const char mark = best[c] == static_cast<int>(i) ? '*' : ' ';
+      const char* fmt = c < 3 ? " %14.6f%c" : " %14.6g%c";
+      line += Format(fmt, rows[i].*fields[c], mark);
+    }
+    out << line.substr(0, line.find_last_not_of(' ') + 1) << "\n";
+  }
+}
+
+}  // namespace
+
+json FitReportJson(const CsvTable& table, const FitOptions& options, const FitReport& report) {
+  json doc;
+  doc["sample"] = {{"rows", report.rows},
+                   {"first_period", Period(table, static_cast<std::size_t>(report.first_row))},
+                   {"last_period", Period(table, table.rows() - 1)}};
+  doc["lags"] = report.spec.lags;
+  doc["deterministic"] = DeterministicName(report.spec.deterministic);
+  doc["variables"] = report.spec.variables;
+  doc["coefficients"] = CoefficientsJson(report);
+  doc["sigma"] = MatrixJson(report.sigma);
+  doc["sigma_ml"] = MatrixJson(report.sigma_ml);
+  doc["eigenvalues"] = EigenvaluesJson(report);
+  doc["spectral_radius"] = SpectralRadiusJson(report);
+  doc["covariance"] = CovarianceJson(options, report);
+  doc["tests"] = TestsJson(report);
+  if (options.criteria_pmax >= 0) doc["criteria"] = CriteriaJson(report);
+  return doc;
+}
+
+void WriteFitText(const CsvTable& table, const FitOptions& options, const FitReport& report,
+                  std::ostream& out) {
+  WriteHeader(table, options, report, out);
+  for (int eq = 0; eq < report.spec.n(); ++eq) WriteEquation(report, eq, out);
+  WriteSigma(report, out);
+  WriteStability(options, report, out);
+  WriteTests(options, report, out);
+  WriteCriteria(options, report, out);
+  out << "\n" << kCaution << "\n";
+}
+
+}  // namespace rimwatch::cli
