@@ -110,6 +110,21 @@ json TestsJson(const FitReport& report) {
   return list;
 }
 
+json DiagnosticsJson(const FitReport& report) {
+  json list = json::array();
+  for (const DiagnosticLine& d : report.diagnostics) {
+    const bool ok = d.status.ok();
+    json item = {{"name", d.name},
+                 {"variable", d.variable.empty() ? json(nullptr) : json(d.variable)},
+                 {"statistic", ok ? json(d.statistic) : json(nullptr)},
+                 {"df", ok ? json(d.df) : json(nullptr)},
+                 {"p_value", ok ? json(d.p_value) : json(nullptr)}};
+    if (!ok) item["unavailable"] = d.status.ToString();
+    list.push_back(std::move(item));
+  }
+  return list;
+}
+
 json CriteriaJson(const FitReport& report) {
   json out = json::object();
   for (const LagCriteria& c : report.criteria) {
@@ -244,6 +259,23 @@ void WriteTests(const FitOptions& options, const FitReport& report, std::ostream
   }
 }
 
+void WriteDiagnostics(const FitReport& report, std::ostream& out) {
+  if (report.diagnostics.empty()) return;
+  out << "\nResidual diagnostics (chi-squared statistics; small p-values point at "
+         "misspecification)\n";
+  out << Format("  %-18s %-10s %12s %6s %10s\n", "test", "equation", "statistic", "df", "p-value");
+  for (const DiagnosticLine& d : report.diagnostics) {
+    const char* eq = d.variable.empty() ? "(system)" : d.variable.c_str();
+    if (!d.status.ok()) {
+      out << Format("  %-18s %-10s unavailable: %s\n", d.name.c_str(), eq,
+                    d.status.ToString().c_str());
+      continue;
+    }
+    out << Format("  %-18s %-10s %12.4f %6.0f %10s\n", d.name.c_str(), eq, d.statistic, d.df,
+                  PValue(d.p_value).c_str());
+  }
+}
+
 // Index in report.criteria of the smallest value of `field` among the computed rows, or -1.
 int ArgMin(const std::vector<LagCriteria>& rows, double LagCriteria::*field) {
   int best = -1;
@@ -299,6 +331,7 @@ json FitReportJson(const CsvTable& table, const FitOptions& options, const FitRe
   doc["spectral_radius"] = SpectralRadiusJson(report);
   doc["covariance"] = CovarianceJson(options, report);
   doc["tests"] = TestsJson(report);
+  doc["diagnostics"] = DiagnosticsJson(report);
   if (options.criteria_pmax >= 0) doc["criteria"] = CriteriaJson(report);
   return doc;
 }
@@ -310,6 +343,7 @@ void WriteFitText(const CsvTable& table, const FitOptions& options, const FitRep
   WriteSigma(report, out);
   WriteStability(options, report, out);
   WriteTests(options, report, out);
+  WriteDiagnostics(report, out);
   WriteCriteria(options, report, out);
   out << "\n" << kCaution << "\n";
 }

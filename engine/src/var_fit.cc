@@ -22,6 +22,36 @@ Status ResolveNames(const VarSpec& spec, const std::vector<std::string>& names,
 
 }  // namespace
 
+std::vector<DiagnosticLine> FlattenDiagnostics(const ResidualDiagnostics& d, const VarSpec& spec) {
+  std::vector<DiagnosticLine> out;
+  const auto per_equation = [&](const char* name, const Status& st, const Eigen::VectorXd* stat,
+                                const Eigen::VectorXd* p, double df) {
+    for (int i = 0; i < spec.n(); ++i) {
+      DiagnosticLine line{name, spec.variables[i], st, 0.0, df, 1.0};
+      if (st.ok()) {
+        line.statistic = (*stat)[i];
+        line.p_value = (*p)[i];
+      }
+      out.push_back(std::move(line));
+    }
+  };
+  const auto system = [&](const char* name, const Status& st, double stat, double df, double p) {
+    out.push_back(DiagnosticLine{name, "", st, st.ok() ? stat : 0.0, df, st.ok() ? p : 1.0});
+  };
+  per_equation("arch_lm", d.arch_status, &d.arch.statistic, &d.arch.p_value, d.arch.df);
+  per_equation("ljung_box", d.ljung_box_status, &d.ljung_box.statistic, &d.ljung_box.p_value,
+               d.ljung_box.df);
+  per_equation("jarque_bera", d.jarque_bera_status, &d.jarque_bera.statistic,
+               &d.jarque_bera.p_value, d.jarque_bera.df);
+  system("portmanteau", d.portmanteau_status, d.portmanteau.statistic, d.portmanteau.df,
+         d.portmanteau.p_value);
+  system("breusch_godfrey", d.breusch_godfrey_status, d.breusch_godfrey.lm_statistic,
+         d.breusch_godfrey.lm_df, d.breusch_godfrey.lm_p_value);
+  system("normality", d.normality_status, d.normality.statistic, d.normality.df,
+         d.normality.p_value);
+  return out;
+}
+
 Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covariance,
                          const std::vector<LinearRestriction>& restrictions, FitReport* out) {
   const VarSpec& spec = est.spec();
@@ -56,6 +86,13 @@ Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covar
   if (spectrum.gradient_status.ok()) {
     const double var = (spectrum.gradient.transpose() * v * spectrum.gradient)(0, 0);
     out->spectral_radius_se = std::sqrt(std::max(0.0, var));
+  }
+
+  ResidualSample sample;
+  out->diagnostics.clear();
+  if (WindowResiduals(est, 0, &sample).ok()) {
+    out->diagnostics =
+        FlattenDiagnostics(RunResidualDiagnostics(sample, DiagnosticOptions()), spec);
   }
 
   out->tests.clear();

@@ -11,6 +11,7 @@
 #include <vector>
 
 #include "rimwatch/engine/covariance.h"
+#include "rimwatch/engine/diagnostics.h"
 #include "rimwatch/engine/lag_order.h"
 #include "rimwatch/engine/status.h"
 #include "rimwatch/engine/var_estimator.h"
@@ -39,6 +40,21 @@ struct NamedWaldResult {
   WaldResult result;
 };
 
+// One line of the residual diagnostics, flattened for reports: a system test (variable empty) or
+// one equation's test. df is a count of restrictions (chi-squared tests).
+struct DiagnosticLine {
+  std::string name;      // "arch_lm", "ljung_box", "jarque_bera", "portmanteau",
+                         // "breusch_godfrey", "normality"
+  std::string variable;  // equation's variable for per-equation tests, else empty
+  Status status;         // not OK: unavailable here, message says why
+  double statistic = 0.0;
+  double df = 0.0;
+  double p_value = 1.0;
+};
+
+// The diagnostics of a sample as lines, in a fixed order.
+std::vector<DiagnosticLine> FlattenDiagnostics(const ResidualDiagnostics& d, const VarSpec& spec);
+
 struct FitReport {
   VarSpec spec;
   std::int64_t rows = 0;      // estimation rows (observations - p)
@@ -53,6 +69,8 @@ struct FitReport {
   Status spectral_radius_se_status;  // not OK: SE unavailable, with the reason
   double spectral_radius_se = 0.0;
   std::vector<NamedWaldResult> tests;
+  // Residual misspecification tests on the estimation rows (diagnostics.h, default orders).
+  std::vector<DiagnosticLine> diagnostics;
   Status criteria_status;
   std::vector<LagCriteria> criteria;
 };
