@@ -8,6 +8,7 @@
 
 #include "command.h"
 #include "fit_command.h"
+#include "replay_command.h"
 
 #ifndef RIMWATCH_VERSION
 #define RIMWATCH_VERSION "unknown"
@@ -35,6 +36,7 @@ int main(int argc, char** argv) {
 
   std::vector<Command> commands;
   commands.push_back(RegisterFitCommand(&app));
+  commands.push_back(RegisterReplayCommand(&app));
 
   try {
     app.parse(argc, argv);

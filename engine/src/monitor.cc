@@ -1,0 +1,233 @@
+#include "rimwatch/engine/monitor.h"
+
+#include <cmath>
+#include <map>
+
+#include "rimwatch/engine/companion.h"
+#include "rimwatch/engine/covariance.h"
+#include "rimwatch/engine/cusum.h"
+#include "rimwatch/engine/stability_monitor.h"
+#include "rimwatch/engine/transform.h"
+#include "rimwatch/engine/var_estimator.h"
+#include "rimwatch/engine/volatility_monitor.h"
+
+namespace rimwatch {
+namespace {
+
+VarSpec ReferenceSpec(const VarSpec& var) {
+  VarSpec ref = var;
+  ref.window = WindowOptions();
+  ref.window.kind = WindowKind::kExpanding;
+  ref.window.robust_row_cap = 1;  // recursive residuals need no row buffer
+  return ref;
+}
+
+Status BuildRestriction(const ModelSpec& spec, const RestrictionSpec& r, LinearRestriction* out) {
+  Status st;
+  switch (r.kind) {
+    case RestrictionKind::kGranger: {
+      std::vector<int> cause, effect;
+      for (const auto& v : r.cause) cause.push_back(spec.var.VariableIndex(v));
+      for (const auto& v : r.effect) effect.push_back(spec.var.VariableIndex(v));
+      st = GrangerRestriction(spec.var, cause, effect, out);
+      break;
+    }
+    case RestrictionKind::kExcludeLag:
+      st = ExcludeLagRestriction(spec.var, r.lag, out);
+      break;
+    case RestrictionKind::kMatrix:
+      st = UserRestriction(spec.var, r.name, r.r_matrix, r.r_value, out);
+      break;
+  }
+  out->name = r.name;
+  return st;
+}
+
+// A sequential monitor on recursive residuals with its own reference estimator.
+template <typename M>
+struct Sequential {
+  VarEstimator reference;
+  M monitor;
+  AlertTracker tracker;
+};
+
+}  // namespace
+
+struct Monitor::Impl {
+  ModelSpec spec;
+  RowTransformer transformer;
+  VarEstimator tracking;
+  StabilityMonitor stability;
+  AlertTracker stability_tracker;
+  std::unique_ptr<Sequential<CusumMonitor>> cusum;
+  std::unique_ptr<Sequential<VolatilityMonitor>> volatility;
+  std::vector<LinearRestriction> restrictions;
+  std::vector<AlertTracker*> trackers;  // event order, for ActiveAlerts
+  std::map<std::string, AlertEvent> active;
+  std::int64_t rows = 0;
+  std::optional<double> rho_se;
+
+  explicit Impl(const ModelSpec& s)
+      : spec(s),
+        transformer(s.var.variables, s.transforms),
+        tracking(s.var),
+        stability(s.stability) {}
+
+  AlertRule Rule() const { return AlertRule{spec.alarms.hysteresis, spec.alarms.cooldown}; }
+  void Record(const std::optional<AlertEvent>& ev, RowReport* report);
+  void Estimate(RowReport* report);
+  template <typename M>
+  void RunSequential(Sequential<M>* seq, const Eigen::VectorXd& y, RowReport* report);
+};
+
+void Monitor::Impl::Record(const std::optional<AlertEvent>& ev, RowReport* report) {
+  if (!ev) return;
+  if (ev->raised) {
+    active[ev->monitor] = *ev;
+  } else {
+    active.erase(ev->monitor);
+  }
+  report->events.push_back(*ev);
+}
+
+void Monitor::Impl::Estimate(RowReport* report) {
+  Eigen::MatrixXd phi;
+  report->estimate_status = tracking.Coefficients(&phi);
+  const bool robust = rows % spec.inference.every == 0;
+  bool armed = rows > spec.training_rows;
+  if (report->estimate_status.ok()) {
+    CompanionSpectrum spectrum;
+    if (ComputeCompanionSpectrum(spec.var, phi, robust, &spectrum).ok()) {
+      report->has_spectral_radius = true;
+      report->spectral_radius = spectrum.spectral_radius;
+    }
+    CovarianceContext ctx;
+    if (robust && CovarianceContext::Create(tracking, spec.inference.covariance, &ctx).ok()) {
+      report->robust_row = true;
+      rho_se.reset();
+      if (spectrum.gradient_status.ok()) {
+        const double var = ctx.Restricted(spectrum.gradient.transpose())(0, 0);
+        if (var >= 0.0) rho_se = std::sqrt(var);
+      }
+      const Eigen::VectorXd theta = ctx.theta();
+      for (const LinearRestriction& r : restrictions) {
+        RestrictionRow out;
+        out.name = r.name;
+        out.status = WaldTest(theta, r, ctx.Restricted(r.r_matrix), ctx.info().dof, &out.wald);
+        report->restrictions.push_back(std::move(out));
+      }
+    }
+  }
+  report->rho_se = rho_se;
+  armed = armed && report->has_spectral_radius;
+  MonitorReading reading = stability.Observe(report->spectral_radius, rho_se, armed);
+  report->rows_to_unit = stability.rows_to_unit();
+  Record(stability_tracker.Observe(rows, report->period, reading), report);
+}
+
+template <typename M>
+void Monitor::Impl::RunSequential(Sequential<M>* seq, const Eigen::VectorXd& y, RowReport* report) {
+  const UpdateResult u = seq->reference.Update(y);
+  MonitorReading reading;
+  seq->monitor.Observe(u, &reading);  // a refused residual leaves the reading unarmed
+  const std::optional<AlertEvent> ev = seq->tracker.Observe(rows, report->period, reading);
+  Record(ev, report);
+  if (ev && ev->raised && ev->level == AlertLevel::kCritical) {
+    // Restart on a fresh reference sample: the old one no longer describes the process.
+    seq->reference = VarEstimator(seq->reference.spec());
+    seq->monitor.Reset();
+  }
+}
+
+Monitor::Monitor(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) {}
+Monitor::~Monitor() = default;
+
+Status Monitor::Create(const ModelSpec& spec, std::unique_ptr<Monitor>* out) {
+  std::string why;
+  if (!spec.IsValid(&why)) return Status::InvalidArgument(why);
+  auto impl = std::make_unique<Impl>(spec);
+  impl->stability_tracker = AlertTracker(spec.name, "stability", impl->Rule());
+  const int k = spec.var.k();
+  const std::int64_t training = spec.training_rows - k;  // recursive residuals start after k rows
+
+  CusumMonitorOptions copt;
+  copt.training = training;
+  copt.false_alarm = spec.alarms.false_alarm;
+  copt.warn_false_alarm = spec.alarms.warn_false_alarm;
+  if (!copt.IsValid(&why)) return Status::InvalidArgument("cusum: " + why);
+  impl->cusum.reset(new Sequential<CusumMonitor>{VarEstimator(ReferenceSpec(spec.var)),
+                                                 CusumMonitor(spec.var.variables, copt),
+                                                 AlertTracker(spec.name, "cusum", impl->Rule())});
+
+  VolatilityMonitorOptions vopt;
+  vopt.training = training;
+  vopt.horizon = spec.HorizonRows();
+  vopt.false_alarm = spec.alarms.false_alarm;
+  vopt.warn_false_alarm = spec.alarms.warn_false_alarm;
+  if (!vopt.IsValid(spec.var.n(), &why)) return Status::InvalidArgument("volatility: " + why);
+  impl->volatility.reset(new Sequential<VolatilityMonitor>{
+      VarEstimator(ReferenceSpec(spec.var)), VolatilityMonitor(spec.var.variables, vopt),
+      AlertTracker(spec.name, "volatility", impl->Rule())});
+
+  for (const RestrictionSpec& r : spec.restrictions) {
+    LinearRestriction restriction;
+    Status st = BuildRestriction(spec, r, &restriction);
+    if (!st.ok()) return st;
+    impl->restrictions.push_back(std::move(restriction));
+  }
+  impl->trackers = {&impl->stability_tracker, &impl->cusum->tracker, &impl->volatility->tracker};
+  out->reset(new Monitor(std::move(impl)));
+  return Status::Ok();
+}
+
+RowReport Monitor::Update(const std::string& period, const Eigen::Ref<const Eigen::VectorXd>& raw) {
+  Impl& m = *impl_;
+  RowReport report;
+  report.period = period;
+  Eigen::VectorXd y;
+  bool ready = false;
+  report.status = m.transformer.Apply(raw, &y, &ready);
+  if (!report.status.ok() || !ready) return report;
+  const UpdateResult u = m.tracking.Update(y);
+  if (!u.status.ok()) {  // cannot happen after the transformer's checks; kept for safety
+    report.status = u.status;
+    return report;
+  }
+  if (!u.estimated) return report;  // presample lags
+  report.estimated = true;
+  report.row = ++m.rows;
+  m.Estimate(&report);
+  m.RunSequential(m.cusum.get(), y, &report);
+  m.RunSequential(m.volatility.get(), y, &report);
+  return report;
+}
+
+const ModelSpec& Monitor::spec() const { return impl_->spec; }
+std::int64_t Monitor::rows() const { return impl_->rows; }
+const VarEstimator& Monitor::tracking() const { return impl_->tracking; }
+
+std::vector<AlertEvent> Monitor::ActiveAlerts() const {
+  std::vector<AlertEvent> out;
+  for (const AlertTracker* t : impl_->trackers) {
+    auto it = impl_->active.find(t->monitor());
+    if (it != impl_->active.end()) out.push_back(it->second);
+  }
+  return out;
+}
+
+std::vector<std::string> Monitor::MonitorNames() const {
+  std::vector<std::string> out;
+  for (const AlertTracker* t : impl_->trackers) out.push_back(t->monitor());
+  return out;
+}
+
+Status Monitor::Summary(FitReport* out) const {
+  *out = FitReport();
+  Status st = SummarizeEstimate(impl_->tracking, impl_->spec.inference.covariance,
+                                impl_->restrictions, out);
+  out->rows = impl_->rows;
+  out->first_row = impl_->spec.var.lags;
+  return st;
+}
+
+}  // namespace rimwatch
