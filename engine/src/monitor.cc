@@ -1,11 +1,15 @@
 #include "rimwatch/engine/monitor.h"
 
+#include <algorithm>
 #include <cmath>
+#include <cstdio>
+#include <limits>
 #include <map>
 
 #include "rimwatch/engine/companion.h"
 #include "rimwatch/engine/covariance.h"
 #include "rimwatch/engine/cusum.h"
+#include "rimwatch/engine/diagnostics.h"
 #include "rimwatch/engine/stability_monitor.h"
 #include "rimwatch/engine/transform.h"
 #include "rimwatch/engine/var_estimator.h"
@@ -62,6 +66,11 @@ struct Monitor::Impl {
   std::unique_ptr<Sequential<CusumMonitor>> cusum;
   std::unique_ptr<Sequential<VolatilityMonitor>> volatility;
   std::vector<LinearRestriction> restrictions;
+  // Residual diagnostics: advisory, one tracker per test line, evaluated on non-overlapping
+  // blocks of training_rows rows; the last reading is held between evaluations.
+  std::vector<std::unique_ptr<AlertTracker>> diagnostic_trackers;
+  std::vector<MonitorReading> diagnostic_readings;
+  double diagnostic_alpha = 0.0;        // Bonferroni level per line and evaluation
   std::vector<AlertTracker*> trackers;  // event order, for ActiveAlerts
   std::map<std::string, AlertEvent> active;
   std::int64_t rows = 0;
@@ -76,6 +85,7 @@ struct Monitor::Impl {
   AlertRule Rule() const { return AlertRule{spec.alarms.hysteresis, spec.alarms.cooldown}; }
   void Record(const std::optional<AlertEvent>& ev, RowReport* report);
   void Estimate(RowReport* report);
+  void RunDiagnostics(RowReport* report);
   template <typename M>
   void RunSequential(Sequential<M>* seq, const Eigen::VectorXd& y, RowReport* report);
 };
@@ -123,6 +133,38 @@ void Monitor::Impl::Estimate(RowReport* report) {
   MonitorReading reading = stability.Observe(report->spectral_radius, rho_se, armed);
   report->rows_to_unit = stability.rows_to_unit();
   Record(stability_tracker.Observe(rows, report->period, reading), report);
+}
+
+// Advisory diagnostics (see Monitor::Create for the false-alarm bound).
+void Monitor::Impl::RunDiagnostics(RowReport* report) {
+  if (rows % spec.training_rows == 0 && rows >= spec.training_rows) {
+    ResidualSample sample;
+    const bool have =
+        WindowResiduals(tracking, static_cast<std::size_t>(spec.training_rows), &sample).ok();
+    std::vector<DiagnosticLine> lines;
+    if (have)
+      lines = FlattenDiagnostics(RunResidualDiagnostics(sample, DiagnosticOptions()), spec.var);
+    for (std::size_t i = 0; i < diagnostic_readings.size(); ++i) {
+      MonitorReading& r = diagnostic_readings[i];
+      r.armed = have && i < lines.size() && lines[i].status.ok();
+      if (!r.armed) continue;
+      const DiagnosticLine& d = lines[i];
+      r.statistic = -std::log10(std::max(d.p_value, 1e-300));
+      r.warn = r.clear = -std::log10(diagnostic_alpha);
+      r.critical = std::numeric_limits<double>::infinity();  // advisory: warn level only
+      char buf[256];
+      std::snprintf(
+          buf, sizeof buf,
+          "%s%s%s p-value %.2g on the last %d rows (Bonferroni level %.2g): the residuals "
+          "fail this misspecification check; standard errors, tests and alerts may be off.",
+          d.name.c_str(), d.variable.empty() ? "" : " for ", d.variable.c_str(), d.p_value,
+          spec.training_rows, diagnostic_alpha);
+      r.explanation = buf;
+    }
+  }
+  for (std::size_t i = 0; i < diagnostic_trackers.size(); ++i) {
+    Record(diagnostic_trackers[i]->Observe(rows, report->period, diagnostic_readings[i]), report);
+  }
 }
 
 template <typename M>
@@ -176,6 +218,21 @@ Status Monitor::Create(const ModelSpec& spec, std::unique_ptr<Monitor>* out) {
     impl->restrictions.push_back(std::move(restriction));
   }
   impl->trackers = {&impl->stability_tracker, &impl->cusum->tracker, &impl->volatility->tracker};
+  // Diagnostics: the lines of FlattenDiagnostics, each tested every training_rows rows on the
+  // last training_rows rows. With L lines and E = horizon / training_rows evaluations in the
+  // horizon, testing each at warn_false_alarm / (L E) bounds the chance of any false advisory
+  // within the horizon by warn_false_alarm (Bonferroni; conservative by design).
+  const std::vector<DiagnosticLine> names = FlattenDiagnostics(ResidualDiagnostics(), spec.var);
+  const double evaluations = std::max(1.0, std::floor(spec.alarms.horizon));
+  impl->diagnostic_alpha =
+      spec.alarms.warn_false_alarm / (static_cast<double>(names.size()) * evaluations);
+  for (const DiagnosticLine& d : names) {
+    impl->diagnostic_trackers.push_back(std::make_unique<AlertTracker>(
+        spec.name, "diagnostics." + d.name + (d.variable.empty() ? "" : "." + d.variable),
+        impl->Rule()));
+    impl->diagnostic_readings.emplace_back();
+    impl->trackers.push_back(impl->diagnostic_trackers.back().get());
+  }
   out->reset(new Monitor(std::move(impl)));
   return Status::Ok();
 }
@@ -199,6 +256,7 @@ RowReport Monitor::Update(const std::string& period, const Eigen::Ref<const Eige
   m.Estimate(&report);
   m.RunSequential(m.cusum.get(), y, &report);
   m.RunSequential(m.volatility.get(), y, &report);
+  m.RunDiagnostics(&report);
   return report;
 }
 

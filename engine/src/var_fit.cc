@@ -28,7 +28,8 @@ std::vector<DiagnosticLine> FlattenDiagnostics(const ResidualDiagnostics& d, con
                                 const Eigen::VectorXd* p, double df) {
     for (int i = 0; i < spec.n(); ++i) {
       DiagnosticLine line{name, spec.variables[i], st, 0.0, df, 1.0};
-      if (st.ok()) {
+      if (st.ok() && stat->size() != spec.n()) line.status = Status::Unavailable("not computed");
+      if (line.status.ok()) {
         line.statistic = (*stat)[i];
         line.p_value = (*p)[i];
       }

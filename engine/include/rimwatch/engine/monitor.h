@@ -11,6 +11,10 @@
 //      each monitored restriction.
 //   4. Each monitor turns what it needs into a MonitorReading; one AlertTracker per monitor turns
 //      readings into raised / cleared events, in a fixed monitor order.
+// Residual diagnostics (diagnostics.h) are advisory: every training_rows rows, on the last
+// training_rows rows, each test line at level warn_false_alarm / (lines x evaluations in the
+// horizon), so the chance of any false advisory within the horizon is at most warn_false_alarm
+// (Bonferroni). They raise warn-level events "diagnostics.<test>[.<variable>]" only.
 // A sequential monitor (CUSUM, volatility) restarts on a fresh training sample after it raises a
 // critical alert; the alert clears once the restarted monitor has been quiet for the hysteresis.
 //
