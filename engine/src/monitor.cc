@@ -10,6 +10,7 @@
 #include "rimwatch/engine/covariance.h"
 #include "rimwatch/engine/cusum.h"
 #include "rimwatch/engine/diagnostics.h"
+#include "rimwatch/engine/restriction_monitor.h"
 #include "rimwatch/engine/stability_monitor.h"
 #include "rimwatch/engine/transform.h"
 #include "rimwatch/engine/var_estimator.h"
@@ -55,6 +56,13 @@ struct Sequential {
   AlertTracker tracker;
 };
 
+// A monitored restriction's alarm: its own reference estimator, scan and tracker.
+struct RestrictionAlarm {
+  VarEstimator reference;
+  RestrictionMonitor monitor;
+  AlertTracker tracker;
+};
+
 }  // namespace
 
 struct Monitor::Impl {
@@ -66,6 +74,7 @@ struct Monitor::Impl {
   std::unique_ptr<Sequential<CusumMonitor>> cusum;
   std::unique_ptr<Sequential<VolatilityMonitor>> volatility;
   std::vector<LinearRestriction> restrictions;
+  std::vector<std::unique_ptr<RestrictionAlarm>> restriction_alarms;
   // Residual diagnostics: advisory, one tracker per test line, evaluated on non-overlapping
   // blocks of training_rows rows; the last reading is held between evaluations.
   std::vector<std::unique_ptr<AlertTracker>> diagnostic_trackers;
@@ -86,6 +95,7 @@ struct Monitor::Impl {
   void Record(const std::optional<AlertEvent>& ev, RowReport* report);
   void Estimate(RowReport* report);
   void RunDiagnostics(RowReport* report);
+  void RunRestrictions(const Eigen::VectorXd& y, RowReport* report);
   template <typename M>
   void RunSequential(Sequential<M>* seq, const Eigen::VectorXd& y, RowReport* report);
 };
@@ -133,6 +143,23 @@ void Monitor::Impl::Estimate(RowReport* report) {
   MonitorReading reading = stability.Observe(report->spectral_radius, rho_se, armed);
   report->rows_to_unit = stability.rows_to_unit();
   Record(stability_tracker.Observe(rows, report->period, reading), report);
+}
+
+// Restriction alarms: the scan of restriction_monitor.h on each restriction's reference
+// estimator (the rolling Wald path is computed once, in Estimate). After a critical alarm the
+// scan restarts on a fresh reference sample, like the other sequential monitors.
+void Monitor::Impl::RunRestrictions(const Eigen::VectorXd& y, RowReport* report) {
+  for (const auto& ra : restriction_alarms) {
+    const UpdateResult u = ra->reference.Update(y);
+    RestrictionReading reading;
+    ra->monitor.Observe(ra->reference, u, nullptr, &reading);
+    const std::optional<AlertEvent> ev = ra->tracker.Observe(rows, report->period, reading.alarm);
+    Record(ev, report);
+    if (ev && ev->raised && ev->level == AlertLevel::kCritical) {
+      ra->reference = VarEstimator(ra->reference.spec());
+      ra->monitor.Reset();
+    }
+  }
 }
 
 // Advisory diagnostics (see Monitor::Create for the false-alarm bound).
@@ -215,9 +242,21 @@ Status Monitor::Create(const ModelSpec& spec, std::unique_ptr<Monitor>* out) {
     LinearRestriction restriction;
     Status st = BuildRestriction(spec, r, &restriction);
     if (!st.ok()) return st;
+    RestrictionMonitorOptions ropt;
+    ropt.training_rows = spec.training_rows;
+    ropt.horizon_rows = spec.HorizonRows();
+    ropt.false_alarm = spec.alarms.false_alarm;
+    ropt.warn_false_alarm = spec.alarms.warn_false_alarm;
+    auto alarm = std::make_unique<RestrictionAlarm>(
+        RestrictionAlarm{VarEstimator(ReferenceSpec(spec.var)), RestrictionMonitor(),
+                         AlertTracker(spec.name, "restriction." + r.name, impl->Rule())});
+    st = RestrictionMonitor::Create(spec.var, restriction, ropt, &alarm->monitor);
+    if (!st.ok()) return Status::InvalidArgument("restriction '" + r.name + "': " + st.message());
+    impl->restriction_alarms.push_back(std::move(alarm));
     impl->restrictions.push_back(std::move(restriction));
   }
   impl->trackers = {&impl->stability_tracker, &impl->cusum->tracker, &impl->volatility->tracker};
+  for (const auto& ra : impl->restriction_alarms) impl->trackers.push_back(&ra->tracker);
   // Diagnostics: the lines of FlattenDiagnostics, each tested every training_rows rows on the
   // last training_rows rows. With L lines and E = horizon / training_rows evaluations in the
   // horizon, testing each at warn_false_alarm / (L E) bounds the chance of any false advisory
@@ -256,6 +295,7 @@ RowReport Monitor::Update(const std::string& period, const Eigen::Ref<const Eige
   m.Estimate(&report);
   m.RunSequential(m.cusum.get(), y, &report);
   m.RunSequential(m.volatility.get(), y, &report);
+  m.RunRestrictions(y, &report);
   m.RunDiagnostics(&report);
   return report;
 }
