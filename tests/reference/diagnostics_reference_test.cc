@@ -25,6 +25,7 @@
 #include <utility>
 #include <vector>
 
+#include "reference_compare.h"
 #include "reference_csv.h"
 #include "rimwatch/engine/diagnostics.h"
 #include "rimwatch/engine/var_estimator.h"
@@ -50,43 +51,11 @@ const std::vector<std::string>& Cases() {
   return *cases;
 }
 
-class WorstErrors {
- public:
-  static WorstErrors& Get() {
-    static WorstErrors worst;
-    return worst;
-  }
-  void Record(const std::string& quantity, double rel, const std::string& where) {
-    auto it = worst_.find(quantity);
-    if (it == worst_.end() || !(rel <= it->second.first)) worst_[quantity] = {rel, where};
-  }
-  void Print() const {
-    std::printf("\nworst relative error per quantity (all cases):\n");
-    for (const auto& [quantity, entry] : worst_) {
-      std::printf("  %-36s %10.3e  at %s\n", quantity.c_str(), entry.first, entry.second.c_str());
-    }
-  }
-
- private:
-  std::map<std::string, std::pair<double, std::string>> worst_;
-};
-
-class PrintWorstErrors : public ::testing::Environment {
- public:
-  void TearDown() override { WorstErrors::Get().Print(); }
-};
-[[maybe_unused]] ::testing::Environment* const kPrintWorst =
-    ::testing::AddGlobalTestEnvironment(new PrintWorstErrors);
-
 // |got - want| <= tol * max(1e-300, |want|). No reference value here is near 0 except p-values
 // that underflow in both programs.
 void ExpectRel(const std::string& quantity, const std::string& where, double got, double want,
                double tol = kRelTol) {
-  const double scale = std::max(1e-300, std::abs(want));
-  const double err = std::abs(got - want);
-  WorstErrors::Get().Record(quantity, err / scale, where);
-  EXPECT_LE(err, tol * scale) << quantity << " " << where << ": engine " << got << " vs reference "
-                              << want << " (rel " << err / scale << ")";
+  refdata::ExpectRel(quantity, where, got, want, tol);
 }
 
 void ExpectVectorRel(const std::string& quantity, const std::string& where,
@@ -215,7 +184,7 @@ TEST_P(DiagnosticsReference, EngineResidualsMatchStatsmodels) {
     const double scale = statsmodels_residuals_.col(j).cwiseAbs().maxCoeff();
     const double err =
         (sample_.residuals.col(j) - statsmodels_residuals_.col(j)).cwiseAbs().maxCoeff();
-    WorstErrors::Get().Record("residuals (max-norm)", err / scale, GetParam());
+    refdata::WorstErrors::Get().Record("residuals (max-norm)", err / scale, GetParam());
     EXPECT_LE(err, kResidualTol * scale) << GetParam() << " column " << j;
   }
 }

@@ -24,6 +24,7 @@
 #include <utility>
 #include <vector>
 
+#include "reference_compare.h"
 #include "reference_csv.h"
 #include "rimwatch/engine/covariance.h"
 #include "rimwatch/engine/lag_order.h"
@@ -55,45 +56,10 @@ const std::vector<std::string>& Cases() {
 }
 
 // ---------------------------------------------------------------------------------------------
-// Worst relative error per quantity, over all cases; printed when the binary ends.
+// Relative checks; the worst error per quantity is printed when the binary ends
+// (reference_compare.h).
 
-class WorstErrors {
- public:
-  static WorstErrors& Get() {
-    static WorstErrors worst;
-    return worst;
-  }
-  void Record(const std::string& quantity, double rel, const std::string& where) {
-    auto it = worst_.find(quantity);
-    if (it == worst_.end() || !(rel <= it->second.first)) worst_[quantity] = {rel, where};
-  }
-  void Print() const {
-    std::printf("\nworst relative error per quantity (all cases):\n");
-    for (const auto& [quantity, entry] : worst_) {
-      std::printf("  %-34s %10.3e  at %s\n", quantity.c_str(), entry.first, entry.second.c_str());
-    }
-  }
-
- private:
-  std::map<std::string, std::pair<double, std::string>> worst_;
-};
-
-class PrintWorstErrors : public ::testing::Environment {
- public:
-  void TearDown() override { WorstErrors::Get().Print(); }
-};
-[[maybe_unused]] ::testing::Environment* const kPrintWorst =
-    ::testing::AddGlobalTestEnvironment(new PrintWorstErrors);
-
-// |got - want| <= tol * max(1e-300, |want|): relative to the reference value itself.
-void ExpectRel(const std::string& quantity, const std::string& where, double got, double want,
-               double tol) {
-  const double scale = std::max(1e-300, std::abs(want));
-  const double err = std::abs(got - want);
-  WorstErrors::Get().Record(quantity, err / scale, where);
-  EXPECT_LE(err, tol * scale) << quantity << " " << where << ": engine " << got << " vs reference "
-                              << want << " (rel " << err / scale << ")";
-}
+using refdata::ExpectRel;
 
 // No absolute floor anywhere: no reference value is ~0. The smallest covariance entry in
 // system_cov is about 2e-4 of its Cauchy-Schwarz scale sqrt(V_ii V_jj), and every entry meets the
