@@ -1,5 +1,6 @@
 #include "rimwatch/engine/model_spec.h"
 
+#include <algorithm>
 #include <cmath>
 #include <set>
 #include <sstream>
@@ -107,6 +108,50 @@ std::int64_t ModelSpec::HorizonRows() const {
   return static_cast<std::int64_t>(std::ceil(alarms.horizon * training_rows));
 }
 
+std::int64_t ModelSpec::ConstancyBlockRows() const {
+  if (constancy.block_rows != 0) return constancy.block_rows;
+  const std::int64_t k = var.k();
+  return std::max<std::int64_t>(training_rows, (var.n() + 1) * k + 10);
+}
+
+namespace {
+
+bool ValidConstancy(const ModelSpec& m, std::string* why) {
+  if (!m.constancy.any()) return true;
+  const std::int64_t k = m.var.k();
+  const std::int64_t least = (m.var.n() + 1) * k + 10;
+  const std::int64_t b = m.ConstancyBlockRows();
+  const std::string value =
+      m.constancy.block_rows == 0
+          ? std::to_string(b) + " (automatic: max(training.rows, (n + 1) k + 10))"
+          : std::to_string(b);
+  if (m.constancy.block_rows != 0 && b < least) {
+    return Fail(why, "constancy.block_rows = " + value +
+                         ": must be >= (n + 1) k + 10 = " + std::to_string(least) +
+                         " (more rows than the n k = " + std::to_string(m.var.n() * k) +
+                         " coefficients, plus k + 10)");
+  }
+  if (b > m.HorizonRows()) {
+    return Fail(why, "constancy.block_rows = " + value + ": must be <= the horizon of " +
+                         std::to_string(m.HorizonRows()) +
+                         " rows (alarms.horizon x training.rows); raise alarms.horizon or set "
+                         "constancy.tests = []");
+  }
+  // The equality test keeps the reference sample's rows (at most training + horizon) for its
+  // robust covariance; the buffer may not be truncated.
+  const std::int64_t kept = m.training_rows + m.HorizonRows();
+  if (m.constancy.reference_equality &&
+      kept > static_cast<std::int64_t>(m.var.window.robust_row_cap)) {
+    return Fail(why, "constancy.tests: reference_equality keeps training.rows + horizon = " +
+                         std::to_string(kept) + " rows for its reference covariance, more than " +
+                         std::to_string(m.var.window.robust_row_cap) +
+                         "; lower alarms.horizon or training.rows, or drop reference_equality");
+  }
+  return true;
+}
+
+}  // namespace
+
 bool ModelSpec::IsValid(std::string* why) const {
   if (!ValidName(name, 64)) {
     return Fail(why, "name = '" + name + "': use 1 to 64 characters from A-Z a-z 0-9 _ . -");
@@ -163,6 +208,7 @@ bool ModelSpec::IsValid(std::string* why) const {
   if (a.cooldown < 0) {
     return Fail(why, "alarms.cooldown = " + std::to_string(a.cooldown) + ": must be >= 0");
   }
+  if (!ValidConstancy(*this, why)) return false;
   std::set<std::string> names;
   for (const RestrictionSpec& r : restrictions) {
     if (!ValidName(r.name, 64)) {

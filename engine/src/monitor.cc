@@ -5,8 +5,11 @@
 #include <cstdio>
 #include <limits>
 #include <map>
+#include <mutex>
+#include <sstream>
 
 #include "rimwatch/engine/companion.h"
+#include "rimwatch/engine/constancy.h"
 #include "rimwatch/engine/covariance.h"
 #include "rimwatch/engine/cusum.h"
 #include "rimwatch/engine/diagnostics.h"
@@ -48,6 +51,31 @@ Status BuildRestriction(const ModelSpec& spec, const RestrictionSpec& r, LinearR
   return st;
 }
 
+// The volatility monitor's thresholds depend on (n, options) only, and simulating them costs
+// P (m + H) n normals (tens of milliseconds). One calibrated, never-fed monitor per design is
+// kept in the process and copied (a mutex guards the cache, as in restriction_monitor.cc), so
+// creating many models of one shape pays the simulation once; the copy is bit-identical to a
+// freshly calibrated monitor.
+VolatilityMonitor CalibratedVolatilityMonitor(const std::vector<std::string>& variables,
+                                              const VolatilityMonitorOptions& o) {
+  std::ostringstream key;
+  key << std::hexfloat << o.training << '/' << o.horizon << '/' << o.false_alarm << '/'
+      << o.warn_false_alarm << '/' << o.delta << '/' << o.calibration_paths << '/' << o.seed;
+  for (const std::string& v : variables) key << '/' << v;
+  static std::mutex mutex;
+  static auto* cache = new std::map<std::string, VolatilityMonitor>;
+  {
+    std::lock_guard<std::mutex> lock(mutex);
+    auto it = cache->find(key.str());
+    if (it != cache->end()) return it->second;
+  }
+  // Calibrated outside the lock; two threads may both compute the same (identical) monitor.
+  VolatilityMonitor fresh(variables, o);
+  std::lock_guard<std::mutex> lock(mutex);
+  cache->emplace(key.str(), fresh);
+  return fresh;
+}
+
 // A sequential monitor on recursive residuals with its own reference estimator.
 template <typename M>
 struct Sequential {
@@ -63,6 +91,15 @@ struct RestrictionAlarm {
   AlertTracker tracker;
 };
 
+// A parameter-constancy monitor: its own reference estimator (expanding since its start), the
+// block-wise test of constancy.h and its tracker. The recent sample is the Impl's
+// constancy_recent window, shared by both tests.
+struct ConstancyAlarm {
+  VarEstimator reference;
+  ConstancyMonitor monitor;
+  AlertTracker tracker;
+};
+
 }  // namespace
 
 struct Monitor::Impl {
@@ -75,6 +112,10 @@ struct Monitor::Impl {
   std::unique_ptr<Sequential<VolatilityMonitor>> volatility;
   std::vector<LinearRestriction> restrictions;
   std::vector<std::unique_ptr<RestrictionAlarm>> restriction_alarms;
+  // Constancy: a sliding window of B rows (the recent sample of both tests, never reset) and
+  // one alarm per enabled test.
+  std::unique_ptr<VarEstimator> constancy_recent;
+  std::vector<std::unique_ptr<ConstancyAlarm>> constancy_alarms;
   // Residual diagnostics: advisory, one tracker per test line, evaluated on non-overlapping
   // blocks of training_rows rows; the last reading is held between evaluations.
   std::vector<std::unique_ptr<AlertTracker>> diagnostic_trackers;
@@ -92,13 +133,29 @@ struct Monitor::Impl {
         stability(s.stability) {}
 
   AlertRule Rule() const { return AlertRule{spec.alarms.hysteresis, spec.alarms.cooldown}; }
+  // Feeds one monitor's reading of this row to its tracker: the reading goes into
+  // report->readings and the transition, if any, into report->events. Called once per tracker
+  // per estimated row, in the order of `trackers`.
+  std::optional<AlertEvent> Observe(AlertTracker* tracker, const MonitorReading& reading,
+                                    RowReport* report);
   void Record(const std::optional<AlertEvent>& ev, RowReport* report);
   void Estimate(RowReport* report);
   void RunDiagnostics(RowReport* report);
   void RunRestrictions(const Eigen::VectorXd& y, RowReport* report);
+  void RunConstancy(const Eigen::VectorXd& y, RowReport* report);
+  void ConstancyPresample(const Eigen::VectorXd& y);
+  Status AddConstancy();  // builds the constancy monitors of spec.constancy
   template <typename M>
   void RunSequential(Sequential<M>* seq, const Eigen::VectorXd& y, RowReport* report);
 };
+
+std::optional<AlertEvent> Monitor::Impl::Observe(AlertTracker* tracker,
+                                                 const MonitorReading& reading, RowReport* report) {
+  report->readings.push_back(MonitorSample{tracker->monitor(), reading});
+  std::optional<AlertEvent> ev = tracker->Observe(rows, report->period, reading);
+  Record(ev, report);
+  return ev;
+}
 
 void Monitor::Impl::Record(const std::optional<AlertEvent>& ev, RowReport* report) {
   if (!ev) return;
@@ -142,7 +199,7 @@ void Monitor::Impl::Estimate(RowReport* report) {
   armed = armed && report->has_spectral_radius;
   MonitorReading reading = stability.Observe(report->spectral_radius, rho_se, armed);
   report->rows_to_unit = stability.rows_to_unit();
-  Record(stability_tracker.Observe(rows, report->period, reading), report);
+  Observe(&stability_tracker, reading, report);
 }
 
 // Restriction alarms: the scan of restriction_monitor.h on each restriction's reference
@@ -153,13 +210,47 @@ void Monitor::Impl::RunRestrictions(const Eigen::VectorXd& y, RowReport* report)
     const UpdateResult u = ra->reference.Update(y);
     RestrictionReading reading;
     ra->monitor.Observe(ra->reference, u, nullptr, &reading);
-    const std::optional<AlertEvent> ev = ra->tracker.Observe(rows, report->period, reading.alarm);
-    Record(ev, report);
+    const std::optional<AlertEvent> ev = Observe(&ra->tracker, reading.alarm, report);
     if (ev && ev->raised && ev->level == AlertLevel::kCritical) {
       ra->reference = VarEstimator(ra->reference.spec());
       ra->monitor.Reset();
     }
   }
+}
+
+// Constancy monitors (constancy.h) on the shared recent window and their own reference. A
+// monitor restarts on a fresh reference after a critical alarm; the equality test also restarts
+// when its horizon is used up (its reference sample, and the rows kept for its covariance, stay
+// within training + horizon rows). The Nyblom-Hansen test needs no reference sample and runs on.
+void Monitor::Impl::RunConstancy(const Eigen::VectorXd& y, RowReport* report) {
+  if (!constancy_recent) return;
+  constancy_recent->Update(y);
+  for (const auto& ca : constancy_alarms) {
+    ca->reference.Update(y);
+    ConstancyReading reading;
+    const Status st = ca->monitor.Observe(*constancy_recent, ca->reference, &reading);
+    if (!st.ok()) {  // cannot happen: both estimators are built from the validated spec
+      reading.alarm.armed = false;
+      reading.alarm.explanation = "Parameter constancy: " + st.ToString();
+    }
+    const std::optional<AlertEvent> ev = Observe(&ca->tracker, reading.alarm, report);
+    const bool critical = ev && ev->raised && ev->level == AlertLevel::kCritical;
+    const bool horizon_used =
+        ca->monitor.options().test == ConstancyMonitorOptions::Test::kReferenceEquality &&
+        reading.evaluated && reading.evaluation >= ca->monitor.options().Evaluations();
+    if (critical || horizon_used) {
+      ca->reference = VarEstimator(ca->reference.spec());
+      ca->monitor.Reset();
+    }
+  }
+}
+
+// The presample rows of the tracking estimator go into the constancy estimators as well, so
+// that their row counts equal the model's (first cycle: evaluations at model rows m + j B).
+void Monitor::Impl::ConstancyPresample(const Eigen::VectorXd& y) {
+  if (!constancy_recent) return;
+  constancy_recent->Update(y);
+  for (const auto& ca : constancy_alarms) ca->reference.Update(y);
 }
 
 // Advisory diagnostics (see Monitor::Create for the false-alarm bound).
@@ -190,7 +281,7 @@ void Monitor::Impl::RunDiagnostics(RowReport* report) {
     }
   }
   for (std::size_t i = 0; i < diagnostic_trackers.size(); ++i) {
-    Record(diagnostic_trackers[i]->Observe(rows, report->period, diagnostic_readings[i]), report);
+    Observe(diagnostic_trackers[i].get(), diagnostic_readings[i], report);
   }
 }
 
@@ -199,13 +290,55 @@ void Monitor::Impl::RunSequential(Sequential<M>* seq, const Eigen::VectorXd& y, 
   const UpdateResult u = seq->reference.Update(y);
   MonitorReading reading;
   seq->monitor.Observe(u, &reading);  // a refused residual leaves the reading unarmed
-  const std::optional<AlertEvent> ev = seq->tracker.Observe(rows, report->period, reading);
-  Record(ev, report);
+  const std::optional<AlertEvent> ev = Observe(&seq->tracker, reading, report);
   if (ev && ev->raised && ev->level == AlertLevel::kCritical) {
     // Restart on a fresh reference sample: the old one no longer describes the process.
     seq->reference = VarEstimator(seq->reference.spec());
     seq->monitor.Reset();
   }
+}
+
+// Builds the constancy monitors of spec.constancy (see RunConstancy).
+Status Monitor::Impl::AddConstancy() {
+  if (!spec.constancy.any()) return Status::Ok();
+  const std::int64_t block = spec.ConstancyBlockRows();
+  VarSpec recent = spec.var;
+  recent.window = WindowOptions();
+  recent.window.kind = WindowKind::kSliding;
+  recent.window.rows = static_cast<std::size_t>(block);
+  constancy_recent = std::make_unique<VarEstimator>(recent);
+  struct Enabled {
+    bool on;
+    ConstancyMonitorOptions::Test test;
+  };
+  for (const Enabled& e :
+       {Enabled{spec.constancy.nyblom_hansen, ConstancyMonitorOptions::Test::kNyblomHansen},
+        Enabled{spec.constancy.reference_equality,
+                ConstancyMonitorOptions::Test::kReferenceEquality}}) {
+    if (!e.on) continue;
+    ConstancyMonitorOptions opt;
+    opt.test = e.test;
+    opt.training_rows = spec.training_rows;
+    opt.horizon_rows = spec.HorizonRows();
+    opt.block_rows = block;
+    opt.false_alarm = spec.alarms.false_alarm;
+    opt.warn_false_alarm = spec.alarms.warn_false_alarm;
+    opt.covariance = spec.inference.covariance;
+    // The reference estimator counts rows; the equality test also needs every reference row
+    // for its robust covariance (at most training + horizon rows before it restarts).
+    VarSpec reference = ReferenceSpec(spec.var);
+    if (e.test == ConstancyMonitorOptions::Test::kReferenceEquality) {
+      reference.window.robust_row_cap =
+          static_cast<std::size_t>(spec.training_rows + spec.HorizonRows());
+    }
+    const std::string name = std::string("constancy.") + ConstancyTestName(e.test);
+    auto alarm = std::make_unique<ConstancyAlarm>(ConstancyAlarm{
+        VarEstimator(reference), ConstancyMonitor(), AlertTracker(spec.name, name, Rule())});
+    const Status st = ConstancyMonitor::Create(recent, opt, &alarm->monitor);
+    if (!st.ok()) return Status::InvalidArgument(name + ": " + st.message());
+    constancy_alarms.push_back(std::move(alarm));
+  }
+  return Status::Ok();
 }
 
 Monitor::Monitor(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) {}
@@ -235,7 +368,7 @@ Status Monitor::Create(const ModelSpec& spec, std::unique_ptr<Monitor>* out) {
   vopt.warn_false_alarm = spec.alarms.warn_false_alarm;
   if (!vopt.IsValid(spec.var.n(), &why)) return Status::InvalidArgument("volatility: " + why);
   impl->volatility.reset(new Sequential<VolatilityMonitor>{
-      VarEstimator(ReferenceSpec(spec.var)), VolatilityMonitor(spec.var.variables, vopt),
+      VarEstimator(ReferenceSpec(spec.var)), CalibratedVolatilityMonitor(spec.var.variables, vopt),
       AlertTracker(spec.name, "volatility", impl->Rule())});
 
   for (const RestrictionSpec& r : spec.restrictions) {
@@ -255,8 +388,11 @@ Status Monitor::Create(const ModelSpec& spec, std::unique_ptr<Monitor>* out) {
     impl->restriction_alarms.push_back(std::move(alarm));
     impl->restrictions.push_back(std::move(restriction));
   }
+  Status st = impl->AddConstancy();
+  if (!st.ok()) return st;
   impl->trackers = {&impl->stability_tracker, &impl->cusum->tracker, &impl->volatility->tracker};
   for (const auto& ra : impl->restriction_alarms) impl->trackers.push_back(&ra->tracker);
+  for (const auto& ca : impl->constancy_alarms) impl->trackers.push_back(&ca->tracker);
   // Diagnostics: the lines of FlattenDiagnostics, each tested every training_rows rows on the
   // last training_rows rows. With L lines and E = horizon / training_rows evaluations in the
   // horizon, testing each at warn_false_alarm / (L E) bounds the chance of any false advisory
@@ -289,13 +425,18 @@ RowReport Monitor::Update(const std::string& period, const Eigen::Ref<const Eige
     report.status = u.status;
     return report;
   }
-  if (!u.estimated) return report;  // presample lags
+  if (!u.estimated) {  // presample lags: the constancy estimators take them too (RunConstancy)
+    m.ConstancyPresample(y);
+    return report;
+  }
   report.estimated = true;
   report.row = ++m.rows;
+  report.readings.reserve(m.trackers.size());
   m.Estimate(&report);
   m.RunSequential(m.cusum.get(), y, &report);
   m.RunSequential(m.volatility.get(), y, &report);
   m.RunRestrictions(y, &report);
+  m.RunConstancy(y, &report);
   m.RunDiagnostics(&report);
   return report;
 }

@@ -18,6 +18,8 @@ std::string_view StatusCodeName(StatusCode code) {
       return "unavailable";
     case StatusCode::kNumerical:
       return "numerical";
+    case StatusCode::kIoError:
+      return "io_error";
   }
   return "unknown";
 }

@@ -34,18 +34,19 @@
 //     shift and its boundary widens like sqrt(n ln n), so it is much slower; asserted: it detects
 //     within the horizon in >= 90% of runs and the oracle's median is not larger.
 // RIMWATCH_CALIBRATION_SCALE (default 1) scales the replication counts down, never below the
-// floors that keep each claim supported.
+// floors that keep each claim supported. The design, error laws and delay quantiles live in
+// calibration_support.h.
 #include <gtest/gtest.h>
 
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
-#include <cstdlib>
 #include <limits>
 #include <string>
 #include <vector>
 
 #include "../montecarlo/mc_support.h"
+#include "calibration_support.h"
 #include "rimwatch/engine/cusum.h"
 #include "rimwatch/engine/var_estimator.h"
 #include "rimwatch/engine/var_spec.h"
@@ -53,53 +54,20 @@
 namespace rimwatch {
 namespace {
 
-constexpr int kLags = 2;
-constexpr int kBurnIn = 200;
-constexpr int kTrainRows = 200;
-constexpr int kHorizon = 10 * kTrainRows;
-constexpr double kAlpha = 0.05;
+using calibration::kAlpha;
+using calibration::kHorizon;
+using calibration::kObservations;
+using calibration::kTrainRows;
+using calibration::ObservationOfRow;
+using calibration::Scaled;
+using Design = calibration::VarDesign;
+
 constexpr int kChangeRow = 200;
 constexpr double kShift = 1.0;  // in units of the y1 error s.d.
 
-int Scaled(int base, int floor) {
-  const char* env = std::getenv("RIMWATCH_CALIBRATION_SCALE");
-  const double scale = env != nullptr ? std::atof(env) : 1.0;
-  if (!(scale > 0.0) || scale >= 1.0) return base;
-  return std::max(floor, static_cast<int>(std::lround(base * scale)));
-}
+Design MakeDesign() { return calibration::MakeDesign(0.05); }
 
-struct Design {
-  std::vector<Eigen::MatrixXd> a;
-  Eigen::VectorXd c;
-  Eigen::MatrixXd chol;
-  Eigen::MatrixXd omega;
-};
-
-Design MakeDesign() {
-  Design d;
-  Eigen::MatrixXd a1(3, 3), a2(3, 3), l(3, 3);
-  a1 << 0.55, 0.15, 0.00, 0.10, 0.45, 0.10, 0.05, 0.20, 0.40;
-  a2 << -0.15, 0.00, 0.05, 0.00, 0.10, 0.00, 0.10, -0.05, -0.10;
-  l << 1.0, 0.0, 0.0, 0.3, 0.8, 0.0, -0.2, 0.1, 0.6;
-  d.a = {a1, a2};
-  d.c = Eigen::Vector3d(0.5, -0.2, 0.1);
-  d.chol = l;
-  d.omega = l * l.transpose();
-  return d;
-}
-
-VarSpec MakeSpec() {
-  VarSpec spec;
-  spec.variables = {"y1", "y2", "y3"};
-  spec.lags = kLags;
-  spec.deterministic = Deterministic::kConstant;
-  spec.window.kind = WindowKind::kExpanding;
-  spec.window.robust_row_cap = 4 * kHorizon;
-  return spec;
-}
-
-constexpr int ObservationOfRow(int row) { return row + kLags - 1; }
-constexpr int kObservations = kLags + kTrainRows + kHorizon;
+VarSpec MakeSpec() { return calibration::MakeSpec(WindowKind::kExpanding, 4 * kHorizon); }
 
 struct Path {
   Eigen::MatrixXd y;
@@ -109,26 +77,13 @@ struct Path {
 // One replication; shift_from: observation index from which the constant of y1 rises by kShift
 // (added to the error term, which is what a constant shift is for the VAR recursion), or -1.
 Path Simulate(const Design& d, bool garch, int shift_from, mc::GaussianSource* source) {
-  const int n = static_cast<int>(d.c.size());
-  Eigen::VectorXd h = Eigen::VectorXd::Ones(n), g_prev = Eigen::VectorXd::Zero(n);
   Path path;
-  path.innovations.resize(kObservations, n);
-  int t = 0;
-  auto law = [&](const Eigen::MatrixXd&, mc::GaussianSource* s) {
-    Eigen::VectorXd g = s->NormalVector(n);
-    if (garch) {
-      h = (0.1 + 0.15 * g_prev.array().square() + 0.75 * h.array()).matrix();
-      g = g.cwiseProduct(h.cwiseSqrt());
-      g_prev = g;
-    }
-    Eigen::VectorXd e = d.chol * g;
-    const int obs = t - kBurnIn;
-    if (shift_from >= 0 && obs >= shift_from) e[0] += kShift;
-    if (obs >= 0) path.innovations.row(obs) = e.transpose();
-    ++t;
-    return e;
-  };
-  path.y = mc::SimulateVar(d.a, d.c, kBurnIn, kObservations, source, law);
+  path.y = calibration::SimulateWithErrors(d, garch, source, &path.innovations,
+                                           [&](int obs, Eigen::VectorXd* e) {
+                                             if (shift_from >= 0 && obs >= shift_from) {
+                                               (*e)[0] += kShift;
+                                             }
+                                           });
   return path;
 }
 
@@ -301,12 +256,6 @@ double OracleThreshold(double d2, mc::GaussianSource* source) {
   return maxima[static_cast<std::size_t>(std::ceil((1.0 - kAlpha) * kPaths)) - 1];
 }
 
-double Quantile(std::vector<double> v, double q) {
-  std::sort(v.begin(), v.end());  // order statistic ceil(q N) (common practice)
-  const auto idx = static_cast<std::size_t>(std::ceil(q * v.size())) - 1;
-  return v[std::min(idx, v.size() - 1)];
-}
-
 TEST(CusumCalibration, DelayAfterMeanShift) {
   const int replications = Scaled(500, 300);
   const Design d = MakeDesign();
@@ -320,16 +269,10 @@ TEST(CusumCalibration, DelayAfterMeanShift) {
   mc::GaussianSource source(505);
   const double h_oracle = OracleThreshold(d2, &source);
   const int change_obs = ObservationOfRow(kTrainRows + kChangeRow);
-  constexpr double kNever = std::numeric_limits<double>::infinity();
-  std::vector<std::vector<double>> delays(monitors.size() + 1);
-  std::vector<int> early(monitors.size() + 1, 0);
-  auto record = [&](std::size_t i, int row) {
-    if (row > 0 && row < kChangeRow) {
-      ++early[i];
-    } else {
-      delays[i].push_back(row == 0 ? kNever : row - kChangeRow + 1.0);
-    }
-  };
+  // Delays with the change row counting as 1; an alarm before the change is counted apart.
+  std::vector<calibration::DelaySample> delays(monitors.size() + 1);
+  for (calibration::DelaySample& sample : delays) sample.offset = 1.0;
+  auto record = [&](std::size_t i, int row) { delays[i].Record(row, kChangeRow); };
   for (int r = 0; r < replications; ++r) {
     const Path path = Simulate(d, false, change_obs, &source);
     const std::vector<int> first = RunMonitors(path, &monitors);
@@ -349,17 +292,18 @@ TEST(CusumCalibration, DelayAfterMeanShift) {
   names.push_back("oracle");
   std::vector<double> medians;
   for (std::size_t i = 0; i < delays.size(); ++i) {
-    const auto undetected = std::count(delays[i].begin(), delays[i].end(), kNever);
-    const double med = Quantile(delays[i], 0.5);
+    const auto undetected = delays[i].Undetected();
+    const double med = delays[i].Median();
     medians.push_back(med);
     mc::Report("cusum.delay." + names[i],
-               "median " + mc::FormatNumber(med) + ", p90 " +
-                   mc::FormatNumber(Quantile(delays[i], 0.9)) + " rows (" +
-                   std::to_string(delays[i].size()) + " runs, " + std::to_string(early[i]) +
-                   " alarmed before the change, " + std::to_string(undetected) + " undetected)" +
+               "median " + mc::FormatNumber(med) + ", p90 " + mc::FormatNumber(delays[i].P90()) +
+                   " rows (" + std::to_string(delays[i].delays.size()) + " runs, " +
+                   std::to_string(delays[i].early) + " alarmed before the change, " +
+                   std::to_string(undetected) + " undetected)" +
                    (i + 1 == delays.size() ? ", h = " + mc::FormatNumber(h_oracle) : ""));
     if (i + 1 < delays.size()) {
-      EXPECT_LE(static_cast<double>(undetected), 0.10 * delays[i].size()) << names[i];
+      EXPECT_LE(static_cast<double>(undetected), 0.10 * delays[i].delays.size()) << names[i];
+      calibration::ReportDelaySummary("mean_shift", "cusum." + names[i], delays[i], delays.back());
     }
   }
   for (std::size_t i = 0; i + 1 < medians.size(); ++i) {

@@ -32,17 +32,18 @@
 //       asserted; a regression guard (median <= 3 x, at least 95% detected) is asserted.
 // RIMWATCH_CALIBRATION_SCALE (default 1) scales the replication counts down, never below the
 // floors that keep each claim supported (1000 for (1) and (2), 300 for (3)).
+// The design, simulator, oracle CUSUM and delay quantiles live in calibration_support.h.
 #include <gtest/gtest.h>
 
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
-#include <cstdlib>
 #include <limits>
 #include <string>
 #include <vector>
 
 #include "../montecarlo/mc_support.h"
+#include "calibration_support.h"
 #include "rimwatch/engine/companion.h"
 #include "rimwatch/engine/restriction_monitor.h"
 #include "rimwatch/engine/var_estimator.h"
@@ -52,82 +53,32 @@
 namespace rimwatch {
 namespace {
 
-constexpr int kLags = 2;
-constexpr int kBurnIn = 200;
-constexpr int kTrainRows = 200;            // m
-constexpr int kHorizon = 10 * kTrainRows;  // H
+using calibration::kAlpha;
+using calibration::kHorizon;
+using calibration::kObservations;
+using calibration::kTrainRows;
+using calibration::kWarnAlpha;
+using calibration::Scaled;
+using Design = calibration::VarDesign;
+
 constexpr int kRows = kTrainRows + kHorizon;
-constexpr int kObservations = kLags + kRows;
-constexpr double kAlpha = 0.05;
-constexpr double kWarnAlpha = 0.20;
 constexpr double kTolerance = 0.30;           // +-30% of nominal
 constexpr int kChangeRow = kTrainRows + 300;  // reference row where the link switches on
 constexpr double kLink = 0.3;                 // A1(1,3) after the change
 constexpr int kEffect = 0;                    // y1
 constexpr int kCause = 2;                     // y3
 
-int Scaled(int base, int floor) {
-  const char* env = std::getenv("RIMWATCH_CALIBRATION_SCALE");
-  const double scale = env != nullptr ? std::atof(env) : 1.0;
-  if (!(scale > 0.0) || scale >= 1.0) return base;
-  return std::max(floor, static_cast<int>(std::lround(base * scale)));
-}
+Design MakeDesign() { return calibration::MakeDesign(0.0); }
 
-struct Design {
-  std::vector<Eigen::MatrixXd> a;  // before the change
-  Eigen::VectorXd c;
-  Eigen::MatrixXd chol;  // L, Omega = L L'
-  Eigen::MatrixXd omega;
-};
-
-Design MakeDesign() {
-  Design d;
-  Eigen::MatrixXd a1(3, 3), a2(3, 3), l(3, 3);
-  a1 << 0.55, 0.15, 0.00, 0.10, 0.45, 0.10, 0.05, 0.20, 0.40;
-  a2 << -0.15, 0.00, 0.00, 0.00, 0.10, 0.00, 0.10, -0.05, -0.10;
-  l << 1.0, 0.0, 0.0, 0.3, 0.8, 0.0, -0.2, 0.1, 0.6;
-  d.a = {a1, a2};
-  d.c = Eigen::Vector3d(0.5, -0.2, 0.1);
-  d.chol = l;
-  d.omega = l * l.transpose();
-  return d;
-}
-
-VarSpec MakeSpec() {
-  VarSpec spec;
-  spec.variables = {"y1", "y2", "y3"};
-  spec.lags = kLags;
-  spec.deterministic = Deterministic::kConstant;
-  spec.window.kind = WindowKind::kExpanding;
-  spec.window.robust_row_cap = kRows + 10;
-  return spec;
-}
-
-// Observation index (0-based, after the burn-in) of reference row r (1-based): r + p - 1.
-constexpr int ObservationOfRow(int row) { return row + kLags - 1; }
+VarSpec MakeSpec() { return calibration::MakeSpec(WindowKind::kExpanding, kRows + 10); }
 
 // One replication: kObservations x n. change_row > 0 switches A1(1,3) to kLink from that
 // reference row on.
 Eigen::MatrixXd Simulate(const Design& d, bool garch, int change_row, mc::GaussianSource* src) {
-  const int n = 3;
-  Eigen::VectorXd h = Eigen::VectorXd::Ones(n), g_prev = Eigen::VectorXd::Zero(n);
-  Eigen::MatrixXd y = Eigen::MatrixXd::Zero(kObservations, n);
-  Eigen::VectorXd lag1 = Eigen::VectorXd::Zero(n), lag2 = Eigen::VectorXd::Zero(n);
-  for (int t = -kBurnIn; t < kObservations; ++t) {
-    Eigen::VectorXd g = src->NormalVector(n);
-    if (garch) {
-      h = (0.1 + 0.15 * g_prev.array().square() + 0.75 * h.array()).matrix();
-      g = g.cwiseProduct(h.cwiseSqrt());
-      g_prev = g;
-    }
-    Eigen::MatrixXd a1 = d.a[0];
-    if (change_row > 0 && t >= ObservationOfRow(change_row)) a1(kEffect, kCause) = kLink;
-    const Eigen::VectorXd yt = d.c + a1 * lag1 + d.a[1] * lag2 + d.chol * g;
-    lag2 = lag1;
-    lag1 = yt;
-    if (t >= 0) y.row(t) = yt.transpose();
-  }
-  return y;
+  Design after = d;
+  after.a[0](kEffect, kCause) = kLink;
+  const int change_obs = change_row > 0 ? calibration::ObservationOfRow(change_row) : -1;
+  return calibration::SimulateSwitchingVar(d, after, change_obs, garch, src);
 }
 
 struct RunResult {
@@ -143,7 +94,7 @@ RunResult RunReplication(const Design& d, const Eigen::MatrixXd& y, RestrictionM
   VarEstimator est(MakeSpec());
   RestrictionReading reading;
   RunResult out;
-  double cusum = 0.0;
+  calibration::PageCusum cusum(oracle_threshold);
   const double omega11 = d.omega(kEffect, kEffect);
   for (int obs = 0; obs < kObservations; ++obs) {
     const UpdateResult u = est.Update(y.row(obs).transpose());
@@ -164,10 +115,10 @@ RunResult RunReplication(const Design& d, const Eigen::MatrixXd& y, RestrictionM
     const double e =
         y(obs, kEffect) - d.c[kEffect] - d.a[0].row(kEffect).dot(y1) - d.a[1].row(kEffect).dot(y2);
     const double shift = kLink * y1[kCause];
-    cusum = std::max(0.0, cusum + (e * e - (e - shift) * (e - shift)) / (2.0 * omega11));
-    out.oracle_max = std::max(out.oracle_max, cusum);
-    if (out.oracle_alarm == 0 && cusum >= oracle_threshold) out.oracle_alarm = row;
+    cusum.Add((e * e - (e - shift) * (e - shift)) / (2.0 * omega11), row);
   }
+  out.oracle_max = cusum.maximum();
+  out.oracle_alarm = cusum.alarm();
   return out;
 }
 
@@ -194,14 +145,6 @@ double SpectralRadius(const std::vector<Eigen::MatrixXd>& a) {
   CompanionSpectrum spectrum;
   EXPECT_TRUE(ComputeCompanionSpectrum(spec, phi, false, &spectrum).ok());
   return spectrum.spectral_radius;
-}
-
-// The (1 - alpha) quantile the same way the engine sets its thresholds: the level that at most
-// floor(alpha N) of the N values reach.
-double UpperQuantile(std::vector<double> v, double alpha) {
-  std::sort(v.begin(), v.end());
-  const auto allowed = static_cast<std::size_t>(std::floor(alpha * v.size() + 1e-9));
-  return v[v.size() - std::max<std::size_t>(allowed, 1)];
 }
 
 struct NullSummary {
@@ -258,37 +201,24 @@ TEST(RestrictionCalibration, FalseAlarmsGaussianAndDetectionDelay) {
   CheckFalseAlarms(null, "gaussian");
 
   // Oracle threshold: same 5% chance of a false alarm within H under the same process.
-  const double oracle_h = UpperQuantile(null.oracle_max, kAlpha);
+  const double oracle_h = calibration::UpperQuantile(null.oracle_max, kAlpha);
   mc::Report("oracle.threshold", mc::FormatNumber(oracle_h));
 
   const Design d = MakeDesign();
   RestrictionMonitor monitor = MakeMonitor();
   mc::GaussianSource source(777001);
   const int runs = Scaled(1000, 300);
-  const double kNever = std::numeric_limits<double>::infinity();
-  std::vector<double> delay, oracle_delay;
-  int early = 0, oracle_early = 0;
+  calibration::DelaySample delay, oracle_delay;  // delay 0: flagged on the change row
   for (int r = 0; r < runs; ++r) {
     const Eigen::MatrixXd y = Simulate(d, false, kChangeRow, &source);
     const RunResult res = RunReplication(d, y, &monitor, oracle_h);
-    if (res.critical > 0 && res.critical < kChangeRow) {
-      ++early;  // a false alarm before the change: not a detection
-    } else {
-      delay.push_back(res.critical > 0 ? res.critical - kChangeRow : kNever);
-    }
-    if (res.oracle_alarm > 0 && res.oracle_alarm < kChangeRow) {
-      ++oracle_early;
-    } else {
-      oracle_delay.push_back(res.oracle_alarm > 0 ? res.oracle_alarm - kChangeRow : kNever);
-    }
+    delay.Record(res.critical, kChangeRow);  // an alarm before the change is not a detection
+    oracle_delay.Record(res.oracle_alarm, kChangeRow);
   }
-  auto quantile = [](std::vector<double> v, double p) {
-    std::sort(v.begin(), v.end());
-    return v[static_cast<std::size_t>(std::ceil(p * v.size())) - 1];
-  };
-  const double med = quantile(delay, 0.5), p90 = quantile(delay, 0.9);
-  const double omed = quantile(oracle_delay, 0.5), op90 = quantile(oracle_delay, 0.9);
-  const auto missed = std::count(delay.begin(), delay.end(), kNever);
+  const int early = delay.early, oracle_early = oracle_delay.early;
+  const double med = delay.Median(), p90 = delay.P90();
+  const double omed = oracle_delay.Median(), op90 = oracle_delay.P90();
+  const auto missed = delay.Undetected();
   mc::Report("delay.runs", std::to_string(runs));
   mc::Report("delay.alarms_before_change",
              std::to_string(early) + " (oracle " + std::to_string(oracle_early) + ")");
@@ -304,7 +234,8 @@ TEST(RestrictionCalibration, FalseAlarmsGaussianAndDetectionDelay) {
   // the median stays below 3 x the oracle's.
   const bool goal_met = med <= 2.0 * omed;
   mc::Report("delay.goal_median_within_2x_oracle", goal_met ? "met" : "NOT met");
-  EXPECT_LE(static_cast<double>(missed), 0.05 * delay.size());
+  calibration::ReportDelaySummary("b.granger_link_on", "restriction", delay, oracle_delay);
+  EXPECT_LE(static_cast<double>(missed), 0.05 * delay.delays.size());
   EXPECT_LE(med, 3.0 * omed);
 }
 

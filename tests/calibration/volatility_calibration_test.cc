@@ -25,18 +25,19 @@
 //       with Omega known by SimulatePageThresholds(training = 0), itself checked in
 //       tests/unit/volatility_monitor_test.cc). Goal and assertion: median delay <= 2 x oracle's.
 // RIMWATCH_CALIBRATION_SCALE (default 1) scales the replication counts down, never below the
-// floors that keep each claim supported (1500 for (1), 300 for (2) and (3)).
+// floors that keep each claim supported (1500 for (1), 300 for (2) and (3)). The design, error
+// laws and delay quantiles live in calibration_support.h.
 #include <gtest/gtest.h>
 
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
-#include <cstdlib>
 #include <limits>
 #include <string>
 #include <vector>
 
 #include "../montecarlo/mc_support.h"
+#include "calibration_support.h"
 #include "rimwatch/engine/companion.h"
 #include "rimwatch/engine/var_estimator.h"
 #include "rimwatch/engine/var_spec.h"
@@ -45,55 +46,23 @@
 namespace rimwatch {
 namespace {
 
-constexpr int kLags = 2;
-constexpr int kBurnIn = 200;
-constexpr int kTrainRows = 200;            // estimation rows before the monitors arm
-constexpr int kHorizon = 10 * kTrainRows;  // monitored rows
-constexpr double kAlpha = 0.05;
-constexpr double kWarnAlpha = 0.20;
+using calibration::kAlpha;
+using calibration::kHorizon;
+using calibration::kLags;
+using calibration::kObservations;
+using calibration::kTrainRows;
+using calibration::kWarnAlpha;
+using calibration::ObservationOfRow;
+using calibration::Scaled;
+using Design = calibration::VarDesign;
+
 constexpr int kChangeRow = 200;      // monitoring row of the variance doubling
 constexpr double kTolerance = 0.30;  // +-30% of nominal under Gaussian errors
 
-int Scaled(int base, int floor) {
-  const char* env = std::getenv("RIMWATCH_CALIBRATION_SCALE");
-  const double scale = env != nullptr ? std::atof(env) : 1.0;
-  if (!(scale > 0.0) || scale >= 1.0) return base;
-  return std::max(floor, static_cast<int>(std::lround(base * scale)));
-}
+Design MakeDesign() { return calibration::MakeDesign(0.05); }
 
-struct Design {
-  std::vector<Eigen::MatrixXd> a;
-  Eigen::VectorXd c;
-  Eigen::MatrixXd chol;  // L, Omega = L L'
-  Eigen::MatrixXd omega;
-};
-
-Design MakeDesign() {
-  Design d;
-  Eigen::MatrixXd a1(3, 3), a2(3, 3), l(3, 3);
-  a1 << 0.55, 0.15, 0.00, 0.10, 0.45, 0.10, 0.05, 0.20, 0.40;
-  a2 << -0.15, 0.00, 0.05, 0.00, 0.10, 0.00, 0.10, -0.05, -0.10;
-  l << 1.0, 0.0, 0.0, 0.3, 0.8, 0.0, -0.2, 0.1, 0.6;
-  d.a = {a1, a2};
-  d.c = Eigen::Vector3d(0.5, -0.2, 0.1);
-  d.chol = l;
-  d.omega = l * l.transpose();
-  return d;
-}
-
-VarSpec MakeSpec() {
-  VarSpec spec;
-  spec.variables = {"y1", "y2", "y3"};
-  spec.lags = kLags;
-  spec.deterministic = Deterministic::kConstant;
-  spec.window.kind = WindowKind::kExpanding;
-  spec.window.robust_row_cap = 4 * kHorizon;  // robust statistics are not used here
-  return spec;
-}
-
-// Observation index (0-based after the burn-in) of estimation row r (1-based): r + p - 1.
-constexpr int ObservationOfRow(int row) { return row + kLags - 1; }
-constexpr int kObservations = kLags + kTrainRows + kHorizon;
+// Robust statistics are not used here.
+VarSpec MakeSpec() { return calibration::MakeSpec(WindowKind::kExpanding, 4 * kHorizon); }
 
 struct Path {
   Eigen::MatrixXd y;       // kObservations x n
@@ -103,26 +72,13 @@ struct Path {
 // One replication. garch: GARCH(1,1)-type errors; scale_from: observation index from which the
 // errors are multiplied by sqrt(2) (variance doubles), or -1.
 Path Simulate(const Design& d, bool garch, int scale_from, mc::GaussianSource* source) {
-  const int n = static_cast<int>(d.c.size());
-  Eigen::VectorXd h = Eigen::VectorXd::Ones(n), g_prev = Eigen::VectorXd::Zero(n);
   Path path;
-  path.errors.resize(kObservations, n);
-  int t = 0;
-  auto law = [&](const Eigen::MatrixXd&, mc::GaussianSource* s) {
-    Eigen::VectorXd g = s->NormalVector(n);
-    if (garch) {
-      h = (0.1 + 0.15 * g_prev.array().square() + 0.75 * h.array()).matrix();
-      g = g.cwiseProduct(h.cwiseSqrt());
-      g_prev = g;
-    }
-    Eigen::VectorXd e = d.chol * g;
-    const int obs = t - kBurnIn;
-    if (scale_from >= 0 && obs >= scale_from) e *= std::sqrt(2.0);
-    if (obs >= 0) path.errors.row(obs) = e.transpose();
-    ++t;
-    return e;
-  };
-  path.y = mc::SimulateVar(d.a, d.c, kBurnIn, kObservations, source, law);
+  path.y = calibration::SimulateWithErrors(d, garch, source, &path.errors,
+                                           [&](int obs, Eigen::VectorXd* e) {
+                                             if (scale_from >= 0 && obs >= scale_from) {
+                                               *e *= std::sqrt(2.0);
+                                             }
+                                           });
   return path;
 }
 
@@ -172,13 +128,6 @@ VolatilityMonitorOptions MonitorOptions(int n) {
   o.warn_false_alarm = kWarnAlpha;
   o.delta = 2.0;
   return o;
-}
-
-double Quantile(std::vector<double> v, double q) {
-  // Order statistic ceil(q N) (common practice); +inf entries are undetected runs.
-  std::sort(v.begin(), v.end());
-  const auto idx = static_cast<std::size_t>(std::ceil(q * v.size())) - 1;
-  return v[std::min(idx, v.size() - 1)];
 }
 
 TEST(VolatilityCalibration, DesignIsStable) {
@@ -239,38 +188,30 @@ TEST(VolatilityCalibration, DelayAfterVarianceDoubling) {
   const Eigen::LLT<Eigen::MatrixXd> omega(d.omega);
   mc::GaussianSource source(303);
   const int change_obs = ObservationOfRow(kTrainRows + kChangeRow);
-  constexpr double kNever = std::numeric_limits<double>::infinity();
-  std::vector<double> ours, oracle;
-  int early = 0, oracle_early = 0;
+  // Delays with the change row counting as 1; a false alarm before the change has no delay.
+  calibration::DelaySample ours, oracle;
+  ours.offset = oracle.offset = 1.0;
   for (int r = 0; r < replications; ++r) {
     const Path path = Simulate(d, false, change_obs, &source);
-    const int a = RunMonitor(path, &monitor).critical;
-    const int o = RunOracle(path, omega, h_oracle);
-    if (a > 0 && a < kChangeRow) {
-      ++early;  // false alarm before the change: no delay to measure
-    } else {
-      ours.push_back(a == 0 ? kNever : a - kChangeRow + 1.0);
-    }
-    if (o > 0 && o < kChangeRow) {
-      ++oracle_early;
-    } else {
-      oracle.push_back(o == 0 ? kNever : o - kChangeRow + 1.0);
-    }
+    ours.Record(RunMonitor(path, &monitor).critical, kChangeRow);
+    oracle.Record(RunOracle(path, omega, h_oracle), kChangeRow);
   }
-  const double med = Quantile(ours, 0.5), p90 = Quantile(ours, 0.9);
-  const double omed = Quantile(oracle, 0.5), op90 = Quantile(oracle, 0.9);
-  const auto undetected = std::count(ours.begin(), ours.end(), kNever);
+  const int early = ours.early, oracle_early = oracle.early;
+  const double med = ours.Median(), p90 = ours.P90();
+  const double omed = oracle.Median(), op90 = oracle.P90();
+  const auto undetected = ours.Undetected();
   mc::Report("volatility.delay.monitor",
              "median " + mc::FormatNumber(med) + ", p90 " + mc::FormatNumber(p90) + " rows (" +
-                 std::to_string(ours.size()) + " runs, " + std::to_string(early) +
+                 std::to_string(ours.delays.size()) + " runs, " + std::to_string(early) +
                  " alarmed before the change, " + std::to_string(undetected) + " undetected)");
   mc::Report("volatility.delay.oracle",
              "median " + mc::FormatNumber(omed) + ", p90 " + mc::FormatNumber(op90) +
                  " rows (h = " + mc::FormatNumber(h_oracle) + ", " + std::to_string(oracle_early) +
                  " alarmed before the change)");
   mc::Report("volatility.delay.median_ratio", mc::FormatNumber(med / omed));
+  calibration::ReportDelaySummary("c.variance_doubles", "volatility", ours, oracle);
   EXPECT_LE(med, 2.0 * omed) << "goal: median delay within 2x the oracle";
-  EXPECT_LE(static_cast<double>(undetected), 0.05 * ours.size());
+  EXPECT_LE(static_cast<double>(undetected), 0.05 * ours.delays.size());
 }
 
 }  // namespace

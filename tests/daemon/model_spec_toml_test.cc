@@ -40,6 +40,10 @@ TEST(ModelSpecTomlTest, ExampleParsesToDocumentedValues) {
   EXPECT_EQ(m.restrictions[0].cause, std::vector<std::string>{"b"});
   EXPECT_EQ(m.alarms.horizon, 10.0);
   EXPECT_EQ(m.HorizonRows(), 2000);
+  EXPECT_TRUE(m.constancy.nyblom_hansen);
+  EXPECT_TRUE(m.constancy.reference_equality);
+  EXPECT_EQ(m.constancy.block_rows, 0);
+  EXPECT_EQ(m.ConstancyBlockRows(), 200);  // automatic: training.rows (>= (n + 1) k + 10 = 38)
 }
 
 const char* kBase = "name = \"m\"\nvariables = [\"a\", \"b\"]\nlags = 1\n";
@@ -57,6 +61,46 @@ TEST(ModelSpecTomlTest, MinimalSpecTakesDefaults) {
   EXPECT_EQ(m.var.window.kind, WindowKind::kExpanding);
   EXPECT_EQ(m.inference.every, 1);
   EXPECT_EQ(m.alarms.false_alarm, 0.05);
+  EXPECT_TRUE(m.constancy.nyblom_hansen && m.constancy.reference_equality);
+  EXPECT_EQ(m.constancy.block_rows, 0);
+}
+
+TEST(ModelSpecTomlTest, ConstancyKeys) {
+  ModelSpec m;
+  Status st = ParseModelSpecToml(
+      std::string(kBase) + "[constancy]\ntests = [\"reference_equality\"]\nblock_rows = 150\n",
+      "spec.toml", &m);
+  ASSERT_TRUE(st.ok()) << st.ToString();
+  EXPECT_FALSE(m.constancy.nyblom_hansen);
+  EXPECT_TRUE(m.constancy.reference_equality);
+  EXPECT_EQ(m.ConstancyBlockRows(), 150);
+  st = ParseModelSpecToml(std::string(kBase) + "[constancy]\ntests = []\n", "spec.toml", &m);
+  ASSERT_TRUE(st.ok()) << st.ToString();
+  EXPECT_FALSE(m.constancy.any());
+  // n = 2, k = 3: (n + 1) k + 10 = 19; horizon 10 x 200 = 2000 rows.
+  ExpectRefused(std::string(kBase) + "[constancy]\nblock_rows = 18\n",
+                "spec.toml:5: constancy.block_rows = 18: must be >= (n + 1) k + 10 = 19");
+  ExpectRefused(std::string(kBase) + "[constancy]\nblock_rows = 2001\n",
+                "spec.toml:5: constancy.block_rows = 2001: must be <= the horizon of 2000 rows");
+  ExpectRefused(std::string(kBase) + "[constancy]\ntests = [\"cusum\"]\n",
+                "spec.toml:5: constancy.tests: unknown test 'cusum'");
+  ExpectRefused(
+      std::string(kBase) + "[constancy]\ntests = [\"nyblom_hansen\", \"nyblom_hansen\"]\n",
+      "names 'nyblom_hansen' twice");
+  ExpectRefused(std::string(kBase) + "[constancy]\ntests = \"nyblom_hansen\"\n",
+                "key 'constancy.tests' must be an array of strings");
+  ExpectRefused(std::string(kBase) + "[constancy]\nevery = 3\n",
+                "spec.toml:5: unknown key 'constancy.every'");
+  // The automatic block must fit in the horizon (no line to point at): with p = 2, k = 5 and
+  // (n + 1) k + 10 = 25 > 20 rows of training and horizon.
+  const std::string lags2 = "name = \"m\"\nvariables = [\"a\", \"b\"]\nlags = 2\n";
+  ExpectRefused(lags2 + "[training]\nrows = 20\n[alarms]\nhorizon = 1\n",
+                "spec.toml: constancy.block_rows = 25 (automatic");
+  st = ParseModelSpecToml(lags2 +
+                              "[training]\nrows = 20\n[alarms]\nhorizon = 1\n[constancy]\n"
+                              "tests = []\n",
+                          "spec.toml", &m);
+  EXPECT_TRUE(st.ok()) << st.ToString();
 }
 
 TEST(ModelSpecTomlTest, RefusesBadInputWithLineAndKey) {

@@ -1,8 +1,14 @@
 // The Monitor pipeline: its summary equals the batch fit of the same rows, it is deterministic,
-// refused rows change nothing, and a break into near non-stationarity raises the stability alert.
+// refused rows change nothing, a break into near non-stationarity raises the stability alert,
+// every estimated row carries one reading per monitor (the readings behind the events), and a
+// coefficient break raises the parameter-constancy alerts after it and not before.
 #include "rimwatch/engine/monitor.h"
 
 #include <gtest/gtest.h>
+
+#include <algorithm>
+#include <map>
+#include <random>
 
 #include "sim_var.h"
 
@@ -62,6 +68,17 @@ TEST(MonitorTest, RunsAreBitIdentical) {
     const RowReport rb = b->Update("p", y.row(r).transpose());
     ASSERT_EQ(ra.spectral_radius, rb.spectral_radius);
     ASSERT_EQ(ra.events.size(), rb.events.size());
+    for (std::size_t i = 0; i < ra.events.size(); ++i) {
+      ASSERT_EQ(ra.events[i].monitor, rb.events[i].monitor);
+      ASSERT_EQ(ra.events[i].statistic, rb.events[i].statistic);
+    }
+    ASSERT_EQ(ra.readings.size(), rb.readings.size());
+    for (std::size_t i = 0; i < ra.readings.size(); ++i) {
+      ASSERT_EQ(ra.readings[i].reading.armed, rb.readings[i].reading.armed);
+      ASSERT_EQ(ra.readings[i].reading.statistic, rb.readings[i].reading.statistic)
+          << ra.readings[i].monitor << " row " << ra.row;
+      ASSERT_EQ(ra.readings[i].reading.critical, rb.readings[i].reading.critical);
+    }
   }
   EXPECT_EQ(a->tracking().factor().R(), b->tracking().factor().R());
 }
@@ -80,10 +97,9 @@ TEST(MonitorTest, RefusedRowChangesNothing) {
   EXPECT_EQ(mon->tracking().factor().R(), before);
 }
 
-TEST(MonitorTest, DriftTowardUnitRootRaisesStabilityAlert) {
-  // Stable VAR(1) for 400 rows, then a near unit root in the first equation.
-  const int n = 3;
-  Eigen::MatrixXd y = Eigen::MatrixXd::Zero(1400, n);
+// Stable VAR(1) for 400 rows, then a near unit root in the first equation (1400 rows in all).
+Eigen::MatrixXd DriftTowardUnitRoot() {
+  Eigen::MatrixXd y = Eigen::MatrixXd::Zero(1400, 3);
   std::mt19937_64 gen(5);
   std::normal_distribution<double> e;
   for (int t = 1; t < y.rows(); ++t) {
@@ -92,6 +108,11 @@ TEST(MonitorTest, DriftTowardUnitRootRaisesStabilityAlert) {
     y(t, 1) = 0.3 * y(t - 1, 1) + e(gen);
     y(t, 2) = 0.2 * y(t - 1, 2) + e(gen);
   }
+  return y;
+}
+
+TEST(MonitorTest, DriftTowardUnitRootRaisesStabilityAlert) {
+  const Eigen::MatrixXd y = DriftTowardUnitRoot();
   ModelSpec spec = Spec(WindowKind::kSliding);
   spec.var.lags = 1;
   spec.restrictions.clear();
@@ -107,6 +128,129 @@ TEST(MonitorTest, DriftTowardUnitRootRaisesStabilityAlert) {
   bool active = false;
   for (const AlertEvent& ev : mon->ActiveAlerts()) active |= ev.monitor == "stability";
   EXPECT_TRUE(active);
+}
+
+TEST(MonitorTest, ReadingsFollowMonitorNamesAndDriveTheEvents) {
+  const Eigen::MatrixXd y = DriftTowardUnitRoot();
+  ModelSpec spec = Spec(WindowKind::kSliding);
+  spec.var.lags = 1;
+  std::unique_ptr<Monitor> mon;
+  ASSERT_TRUE(Monitor::Create(spec, &mon).ok());
+  const std::vector<std::string> names = mon->MonitorNames();
+  ASSERT_GE(names.size(), 4u);
+  EXPECT_EQ(names[0], "stability");
+  EXPECT_EQ(names[1], "cusum");
+  EXPECT_EQ(names[2], "volatility");
+  EXPECT_EQ(names[3], "restriction.b-not-to-a");
+  ASSERT_GE(names.size(), 6u);
+  EXPECT_EQ(names[4], "constancy.nyblom_hansen");
+  EXPECT_EQ(names[5], "constancy.reference_equality");
+  std::map<std::string, int> armed_rows;  // per monitor: estimated rows with an armed reading
+  int events = 0, estimated = 0;
+  for (int r = 0; r < y.rows(); ++r) {
+    const RowReport report = mon->Update(std::to_string(r), y.row(r).transpose());
+    if (!report.estimated) {
+      EXPECT_TRUE(report.readings.empty());
+      continue;
+    }
+    ++estimated;
+    ASSERT_EQ(report.readings.size(), names.size()) << "row " << report.row;
+    for (std::size_t i = 0; i < names.size(); ++i) {
+      const MonitorSample& s = report.readings[i];
+      ASSERT_EQ(s.monitor, names[i]);
+      if (report.row <= spec.training_rows && s.monitor.rfind("diagnostics.", 0) != 0) {
+        EXPECT_FALSE(s.reading.armed) << s.monitor << " armed while training, row " << report.row;
+      }
+      armed_rows[s.monitor] += s.reading.armed;
+    }
+    for (const AlertEvent& ev : report.events) {
+      ++events;
+      auto it = std::find_if(report.readings.begin(), report.readings.end(),
+                             [&](const MonitorSample& s) { return s.monitor == ev.monitor; });
+      ASSERT_NE(it, report.readings.end()) << ev.monitor;
+      EXPECT_EQ(ev.statistic, it->reading.statistic) << ev.monitor << " row " << ev.row;
+      if (ev.raised) {
+        EXPECT_TRUE(it->reading.armed);
+        EXPECT_EQ(ev.threshold,
+                  ev.level == AlertLevel::kCritical ? it->reading.critical : it->reading.warn);
+        EXPECT_GE(it->reading.statistic, ev.threshold);
+      } else {
+        EXPECT_EQ(ev.threshold, it->reading.clear);
+      }
+    }
+  }
+  EXPECT_EQ(estimated, mon->rows());
+  EXPECT_GT(events, 0);
+  // After training every monitor has armed readings: the stability, CUSUM, volatility and
+  // restriction monitors on (nearly) every later row, each diagnostic line on its evaluations.
+  const int after = estimated - spec.training_rows;
+  for (const char* always : {"stability", "cusum", "volatility", "restriction.b-not-to-a"}) {
+    EXPECT_GE(armed_rows[always], after - 3 * spec.training_rows) << always;
+  }
+  for (const std::string& name : names) EXPECT_GT(armed_rows[name], 0) << name;
+}
+
+// Constancy monitors: a coefficient break in the middle of a block raises both constancy alerts
+// (critical) after the break and none before; the spec can turn them off; a block too short
+// for the coefficients is refused with the key named.
+TEST(MonitorTest, CoefficientBreakRaisesConstancyAlerts) {
+  // VAR(1): y1 = a y1(-1) + 0.2 y2(-1) + e with a from 0.6 to -0.6 at row 600, the middle of the
+  // block (500, 700] (training 100, B = 200: evaluations at rows 300, 500, 700, ...).
+  Eigen::MatrixXd y = Eigen::MatrixXd::Zero(1200, 3);
+  std::mt19937_64 gen(17);
+  std::normal_distribution<double> e;
+  constexpr int kBreak = 600;
+  for (int t = 1; t < y.rows(); ++t) {
+    const double a = t < kBreak ? 0.6 : -0.6;
+    y(t, 0) = a * y(t - 1, 0) + 0.2 * y(t - 1, 1) + e(gen);
+    y(t, 1) = 0.3 * y(t - 1, 1) + e(gen);
+    y(t, 2) = 0.1 * y(t - 1, 0) + 0.2 * y(t - 1, 2) + e(gen);
+  }
+  ModelSpec spec = Spec(WindowKind::kForgetting);  // constancy uses its own sliding block
+  spec.var.lags = 1;
+  spec.restrictions.clear();
+  spec.alarms.horizon = 10;                   // H = 1000 rows: E = 5 evaluations at alpha / 5
+  EXPECT_EQ(spec.ConstancyBlockRows(), 100);  // automatic: training.rows
+  spec.constancy.block_rows = 200;
+  std::unique_ptr<Monitor> mon;
+  ASSERT_TRUE(Monitor::Create(spec, &mon).ok());
+  std::map<std::string, std::int64_t> first_critical;
+  for (int r = 0; r < y.rows(); ++r) {
+    const RowReport rep = mon->Update(std::to_string(r), y.row(r).transpose());
+    for (const AlertEvent& ev : rep.events) {
+      if (ev.monitor.rfind("constancy.", 0) != 0 || !ev.raised) continue;
+      EXPECT_GE(ev.row, kBreak) << ev.monitor << ": " << ev.message;
+      if (ev.level == AlertLevel::kCritical && !first_critical.count(ev.monitor)) {
+        first_critical[ev.monitor] = ev.row;
+        EXPECT_NE(ev.message.find("coefficients"), std::string::npos) << ev.message;
+      }
+    }
+  }
+  // Nyblom-Hansen sees the break inside the block (500, 700]; the equality test there or one
+  // block later, once the recent block is all post-break.
+  ASSERT_TRUE(first_critical.count("constancy.nyblom_hansen"));
+  ASSERT_TRUE(first_critical.count("constancy.reference_equality"));
+  EXPECT_EQ(first_critical["constancy.nyblom_hansen"], 700);
+  EXPECT_LE(first_critical["constancy.reference_equality"], 900);
+
+  spec.constancy.nyblom_hansen = spec.constancy.reference_equality = false;
+  ASSERT_TRUE(Monitor::Create(spec, &mon).ok());
+  for (const std::string& name : mon->MonitorNames()) {
+    EXPECT_NE(name.rfind("constancy.", 0), 0u) << name;
+  }
+  spec.constancy.reference_equality = true;
+  spec.alarms.horizon = 5;
+  spec.constancy.block_rows = 25;  // (n + 1) k + 10 = 26 for n = 3, k = 4
+  const Status st = Monitor::Create(spec, &mon);
+  EXPECT_EQ(st.code(), StatusCode::kInvalidArgument);
+  EXPECT_NE(st.message().find("constancy.block_rows = 25: must be >= (n + 1) k + 10 = 26"),
+            std::string::npos)
+      << st.message();
+  spec.constancy.block_rows = 26;
+  EXPECT_TRUE(Monitor::Create(spec, &mon).ok());
+  spec.constancy.block_rows = 501;  // horizon 5 x 100 rows
+  EXPECT_NE(Monitor::Create(spec, &mon).message().find("must be <= the horizon of 500 rows"),
+            std::string::npos);
 }
 
 }  // namespace

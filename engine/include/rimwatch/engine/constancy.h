@@ -127,8 +127,10 @@ Status EqualityWaldTest(const CovarianceContext& reference, const CovarianceCont
 // <= E (alpha / E) = alpha whatever the dependence between evaluations (conservative by design;
 // nearly exact when evaluations are close to independent, as with disjoint Nyblom windows),
 // given that each evaluation has its asymptotic size. tests/calibration/
-// constancy_calibration_test.cc shows the share by simulation. Beyond H the same levels apply and
-// the guarantee does not extend.
+// constancy_calibration_test.cc shows the share by simulation. Beyond H the same levels apply:
+// the chance since arming keeps growing (the bound does not extend), while any E consecutive
+// evaluations again hold it to alpha by the same inequality. The Monitor (monitor.h) runs both
+// tests as "constancy.<ConstancyTestName>" on a sliding window of B rows.
 //
 // Reading: statistic = the latest evaluation's statistic (L or W), held until the next one;
 // critical / warn = the critical values above; clear = warn. Unarmed before the first evaluation

@@ -40,6 +40,25 @@ struct StabilitySpec {
   int slope_rows = 50;     // rows used for the slope behind "rows until rho reaches 1"
 };
 
+// Parameter-constancy monitors (constancy.h, ConstancyMonitor), each on its own alert:
+//   "constancy.nyblom_hansen"       the robust Nyblom-Hansen statistic of all n k coefficients on
+//                                   successive disjoint blocks of B rows;
+//   "constancy.reference_equality"  the robust Wald equality test of the reference sample (rows
+//                                   since the monitor's start, before the block) and the latest
+//                                   block of B rows.
+struct ConstancySpec {
+  bool nyblom_hansen = true;       // run constancy.nyblom_hansen
+  bool reference_equality = true;  // run constancy.reference_equality
+  // B: rows per block, i.e. the length of the recent sample and the spacing of evaluations.
+  // 0 = automatic: max(training_rows, (n + 1) k + 10). When set: >= (n + 1) k + 10 (more rows
+  // than the n k coefficients, and k + 10 more for the small-sample form of the equality test),
+  // and <= the horizon in rows. Trade-off: a shorter block reacts sooner but each evaluation is
+  // held to alpha / E with more evaluations E = floor(H / B), and each sees fewer rows.
+  std::int64_t block_rows = 0;
+
+  bool any() const { return nyblom_hansen || reference_equality; }
+};
+
 struct AlarmSpec {
   // Chance of any false critical alarm per monitor over the horizon, in (0, 0.5].
   double false_alarm = 0.05;
@@ -61,10 +80,13 @@ struct ModelSpec {
   int training_rows = 200;  // rows before the monitors arm; >= k + 10
   StabilitySpec stability;
   std::vector<RestrictionSpec> restrictions;
+  ConstancySpec constancy;
   AlarmSpec alarms;
 
   // Horizon in rows: alarms.horizon * training_rows.
   std::int64_t HorizonRows() const;
+  // B of the constancy monitors: constancy.block_rows, or the automatic value when it is 0.
+  std::int64_t ConstancyBlockRows() const;
   // True when usable; otherwise *why names the key, its value and the rule.
   bool IsValid(std::string* why) const;
 };

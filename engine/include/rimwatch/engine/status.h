@@ -21,6 +21,7 @@ enum class StatusCode {
   kNotEnoughRows,    // fewer rows than the statistic needs
   kUnavailable,      // the quantity is undefined here (e.g. SE of a repeated eigenvalue)
   kNumerical,        // a numerical routine failed (e.g. eigen solver did not converge)
+  kIoError,          // outside the engine: a file, database or socket operation failed
 };
 
 // Stable lower-case name of a code, used in messages and JSON ("rank_deficient", ...).
@@ -48,6 +49,7 @@ class Status {
   static Status Numerical(std::string msg) {
     return Status(StatusCode::kNumerical, std::move(msg));
   }
+  static Status IoError(std::string msg) { return Status(StatusCode::kIoError, std::move(msg)); }
 
   bool ok() const { return code_ == StatusCode::kOk; }
   StatusCode code() const { return code_; }

@@ -221,6 +221,33 @@ void ReadRestriction(Reader& rd, const toml::table& t, ModelSpec* m) {
   m->restrictions.push_back(std::move(r));
 }
 
+// [constancy] tests = ["nyblom_hansen", "reference_equality"], block_rows = 0 (automatic).
+void ReadConstancy(Reader& rd, const toml::table& c, ModelSpec* m) {
+  rd.OnlyKeys(c, "constancy.", {"tests", "block_rows"});
+  if (const toml::node* t = c.get("tests")) {
+    rd.Remember("constancy.tests", *t);
+    std::vector<std::string> tests;
+    if (!rd.Strings(*t, "constancy.tests", &tests)) return;
+    m->constancy.nyblom_hansen = m->constancy.reference_equality = false;
+    for (const std::string& name : tests) {
+      bool* on = name == "nyblom_hansen"        ? &m->constancy.nyblom_hansen
+                 : name == "reference_equality" ? &m->constancy.reference_equality
+                                                : nullptr;
+      if (!on) {
+        rd.Fail(t->source(), "constancy.tests: unknown test '" + name +
+                                 "' (use nyblom_hansen, reference_equality, or [] for none)");
+        return;
+      }
+      if (*on) {
+        rd.Fail(t->source(), "constancy.tests names '" + name + "' twice");
+        return;
+      }
+      *on = true;
+    }
+  }
+  rd.Get(c, "constancy.", "block_rows", &m->constancy.block_rows);
+}
+
 void ReadSections(Reader& rd, const toml::table& root, ModelSpec* m) {
   ReadWindow(rd, root, m);
   if (const toml::table* c = rd.Table(root, "covariance")) {
@@ -244,6 +271,7 @@ void ReadSections(Reader& rd, const toml::table& root, ModelSpec* m) {
     rd.Get(*s, "stability.", "critical", &m->stability.critical);
     rd.Get(*s, "stability.", "slope_rows", &m->stability.slope_rows);
   }
+  if (const toml::table* c = rd.Table(root, "constancy")) ReadConstancy(rd, *c, m);
   if (const toml::table* a = rd.Table(root, "alarms")) {
     rd.OnlyKeys(*a, "alarms.",
                 {"false_alarm", "warn_false_alarm", "horizon", "hysteresis", "cooldown"});
@@ -279,7 +307,7 @@ Status ParseModelSpecToml(std::string_view text, std::string_view source, ModelS
   }
   rd.OnlyKeys(root, "",
               {"name", "variables", "lags", "deterministic", "transform", "window", "covariance",
-               "training", "stability", "restriction", "alarms"});
+               "training", "stability", "restriction", "constancy", "alarms"});
   ModelSpec m;
   if (!rd.Get(root, "", "name", &m.name) && !rd.failed()) rd.FailNoLine("key 'name' is required");
   if (const toml::node* v = root.get("variables")) {
