@@ -1,9 +1,12 @@
 #include "replay_command.h"
 
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include <Eigen/Core>
+#include <chrono>
 #include <cstdio>
+#include <ctime>
 #include <fstream>
 #include <iostream>
 #include <memory>
@@ -12,6 +15,9 @@
 #include "csv_table.h"
 #include "fit_output.h"
 #include "rimwatch/daemon/model_spec_toml.h"
+#include "rimwatch/daemon/period.h"
+#include "rimwatch/daemon/record.h"
+#include "rimwatch/daemon/store.h"
 #include "rimwatch/engine/monitor.h"
 
 namespace rimwatch::cli {
@@ -35,8 +41,24 @@ constexpr const char* kReplayFooter =
     "CSV that completed the model row, then a last line {\"summary\": ...} with the keys of\n"
     "`rimwatch fit --json` for the tracking window.\n"
     "\n"
+    "With --db FILE the replay also writes the SQLite log that rimwatchd writes (same schema,\n"
+    "same records): the series of the spec's variables, every observation, the model with its\n"
+    "spec text, and for every model row its tests record, its snapshot at the daemon's cadence\n"
+    "and its alerts. Periods come from the CSV's period column, which must then hold integers,\n"
+    "dates (YYYY-MM-DD) or timestamps with a zone (YYYY-MM-DDTHH:MM[:SS]Z or +hh:mm), one kind,\n"
+    "strictly increasing; the engine sees their canonical text, as in the daemon. Without a\n"
+    "period column the periods are the data row numbers 1, 2, ... The log is written in one\n"
+    "transaction: if the replay fails, nothing is written (a file it created is removed).\n"
+    "Nothing already in FILE is lost: a missing or empty FILE becomes a new log; an existing\n"
+    "FILE is used only if it is a rimwatch log of this build's schema version in which no\n"
+    "active model has the spec's name. Observations of series already in it are stored as\n"
+    "the daemon stores them (an equal value is a duplicate and not written again, a different\n"
+    "one a new vintage); nothing is overwritten. The replay holds FILE's write lock until it\n"
+    "ends, so do not point it at the log of a running rimwatchd.\n"
+    "\n"
     "Example:\n"
     "  rimwatch replay --spec schemas/model.example.toml --csv history.csv --json\n"
+    "  rimwatch replay --spec desk.toml --csv history.csv --db desk.sqlite\n"
     "\n"
     "Alerts are statistical evidence, not trading or policy advice.\n"
     "\n";
@@ -68,6 +90,155 @@ void WriteEventLine(const AlertEvent& ev, std::ostream& out) {
                 ev.statistic, ev.threshold);
   out << head << ev.message << "\n";
 }
+
+// Wall-clock time as ISO 8601 UTC text, for the store's *_at columns (never seen by the engine).
+std::string NowUtc() {
+  const std::time_t t = std::chrono::system_clock::to_time_t(std::chrono::system_clock::now());
+  std::tm tm{};
+  gmtime_r(&t, &tm);
+  char buf[32];
+  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
+  return buf;
+}
+
+// The period of every CSV row for --db: the period column parsed as rimwatchd parses periods
+// (one kind, strictly increasing), or the 1-based row numbers. False after a FILE:LINE message.
+bool ReplayPeriods(const CsvTable& table, std::vector<daemon::Period>* out, std::ostream& err) {
+  out->clear();
+  for (std::size_t r = 0; r < table.rows(); ++r) {
+    daemon::Period p = daemon::IntegerPeriod(static_cast<std::int64_t>(r) + 1);
+    if (table.has_period) {
+      const Status st = daemon::ParsePeriod(table.periods[r], &p);
+      std::string why;
+      if (!st.ok()) {
+        why = st.message() + " (--db needs integer, date or timestamp periods)";
+      } else if (!out->empty() && p.kind != out->front().kind) {
+        why = "period " + p.text + " is of kind " + std::string(daemon::PeriodKindName(p.kind)) +
+              ", the first row's of kind " +
+              std::string(daemon::PeriodKindName(out->front().kind)) + " (--db needs one kind)";
+      } else if (!out->empty() && p.key <= out->back().key) {
+        why = "period " + p.text + " is not after the previous row's " + out->back().text +
+              " (--db needs strictly increasing periods)";
+      }
+      if (!why.empty()) {
+        err << CsvError{table.path, table.lines[r], why}.ToString() << "\n";
+        return false;
+      }
+    }
+    out->push_back(std::move(p));
+  }
+  return true;
+}
+
+// The --db side of a replay: one transaction holding what rimwatchd would have written for the
+// same input. Abandon() (or destruction before Commit) rolls back and removes a created file.
+class ReplayLog {
+ public:
+  ~ReplayLog() { Abandon(); }
+
+  // Applies the file rules of the help text; false after a message.
+  bool Open(const std::string& path, const ModelSpec& spec, std::ostream& err) {
+    path_ = path;
+    struct stat info;
+    const bool exists = stat(path.c_str(), &info) == 0;
+    created_ = !exists;
+    if (exists && info.st_size > 0) {
+      daemon::StoreOptions ro;
+      ro.path = path;
+      ro.read_only = true;
+      std::unique_ptr<daemon::Store> existing;
+      Status st = daemon::Store::Open(ro, &existing);
+      std::vector<daemon::StoredModel> models;
+      if (st.ok()) st = existing->ActiveModels(&models);
+      if (!st.ok()) {
+        err << path << ": refusing to write into it: " << st.message() << "\n";
+        return false;
+      }
+      for (const daemon::StoredModel& m : models) {
+        if (m.name == spec.name) {
+          err << path << ": refusing to write into it: model '" << spec.name
+              << "' is active there (id " << m.id << "); use another --db file\n";
+          return false;
+        }
+      }
+    }
+    daemon::StoreOptions options;
+    options.path = path;
+    const Status st = daemon::Store::Open(options, &store_);
+    if (!st.ok()) {
+      err << path << ": " << st.message() << "\n";
+      return false;
+    }
+    return true;
+  }
+
+  Status Begin(const ModelSpec& spec, const std::string& spec_text, daemon::PeriodKind kind) {
+    now_ = NowUtc();
+    Status st = store_->Begin();
+    for (std::size_t i = 0; st.ok() && i < spec.var.variables.size(); ++i) {
+      series_.emplace_back();
+      st = store_->EnsureSeries(spec.var.variables[i], kind, &series_.back());
+    }
+    model_name_ = spec.name;
+    if (st.ok()) st = store_->AddModel(spec.name, spec_text, now_, &model_id_);
+    return st;
+  }
+
+  Status PutRow(const daemon::Period& period, const Eigen::VectorXd& raw) {
+    for (std::size_t i = 0; i < series_.size(); ++i) {
+      daemon::PutOutcome outcome;
+      Status st = store_->PutObservation(&series_[i], period, raw[static_cast<Eigen::Index>(i)], "",
+                                         now_, &outcome);
+      if (!st.ok()) return st;
+      ++outcomes_[static_cast<int>(outcome)];
+    }
+    return Status::Ok();
+  }
+
+  Status Record(const Monitor& monitor, const RowReport& report) {
+    alerts_ += report.events.size();
+    return daemon::RecordRow(*store_, model_id_, monitor, report, daemon::RecordOptions{}, now_);
+  }
+
+  Status Commit() {
+    const Status st = store_->Commit();
+    if (st.ok()) committed_ = true;
+    return st;
+  }
+
+  void Abandon() {
+    if (committed_ || !store_) return;
+    if (store_->in_transaction()) store_->Rollback();
+    store_.reset();
+    if (created_) {
+      for (const char* suffix : {"", "-wal", "-shm"}) std::remove((path_ + suffix).c_str());
+    }
+  }
+
+  std::string Describe(std::int64_t model_rows) const {
+    std::ostringstream s;
+    s << "replay: wrote model '" << model_name_ << "' (id " << model_id_ << ") to " << path_ << ": "
+      << outcomes_[0] << " new observations";
+    if (outcomes_[1] + outcomes_[2] + outcomes_[3] > 0) {
+      s << " (and " << outcomes_[1] << " duplicates not written, " << outcomes_[2] << " revisions, "
+        << outcomes_[3] << " late)";
+    }
+    s << ", " << model_rows << " model rows, " << alerts_ << " alerts";
+    return s.str();
+  }
+
+ private:
+  std::string path_;
+  bool created_ = false;
+  bool committed_ = false;
+  std::unique_ptr<daemon::Store> store_;
+  std::vector<daemon::SeriesInfo> series_;
+  std::int64_t model_id_ = 0;
+  std::string model_name_;
+  std::string now_;
+  std::int64_t outcomes_[4] = {0, 0, 0, 0};  // PutOutcome order
+  std::size_t alerts_ = 0;
+};
 
 }  // namespace
 
@@ -109,6 +280,23 @@ int RunReplay(const ReplayCommandOptions& options, std::ostream& out, std::ostre
     err << options.spec << ": " << st.message() << "\n";
     return kExitBadInput;
   }
+  std::vector<daemon::Period> periods;
+  std::unique_ptr<ReplayLog> log;
+  if (!options.db.empty()) {
+    if (!ReplayPeriods(table, &periods, err)) return kExitBadInput;
+    // Labels everywhere (engine, events, summary) are the canonical text the daemon uses.
+    if (table.has_period) {
+      for (std::size_t r = 0; r < table.rows(); ++r) table.periods[r] = periods[r].text;
+    }
+    log = std::make_unique<ReplayLog>();
+    if (!log->Open(options.db, spec, err)) return kExitBadInput;
+    st = log->Begin(spec, text,
+                    periods.empty() ? daemon::PeriodKind::kInteger : periods.front().kind);
+    if (!st.ok()) {
+      err << options.db << ": " << st.message() << "\n";
+      return kExitBadInput;
+    }
+  }
 
   std::ostringstream body;
   std::vector<std::size_t> data_row_of;  // model row (1-based) -> 0-based data row
@@ -117,10 +305,25 @@ int RunReplay(const ReplayCommandOptions& options, std::ostream& out, std::ostre
   for (std::size_t r = 0; r < table.rows(); ++r) {
     for (std::size_t i = 0; i < column.size(); ++i)
       raw[static_cast<Eigen::Index>(i)] = table.value(r, column[i]);
+    if (log) {
+      st = log->PutRow(periods[r], raw);
+      if (!st.ok()) {
+        err << CsvError{table.path, table.lines[r], options.db + ": " + st.message()}.ToString()
+            << "\n";
+        return kExitBadInput;
+      }
+    }
     const RowReport report = monitor->Update(table.PeriodLabel(r), raw);
     if (!report.status.ok()) {
       err << CsvError{table.path, table.lines[r], report.status.message()}.ToString() << "\n";
       return kExitBadInput;
+    }
+    if (log) {
+      st = log->Record(*monitor, report);
+      if (!st.ok()) {
+        err << options.db << ": " << st.message() << "\n";
+        return kExitBadInput;
+      }
     }
     if (report.estimated) data_row_of.push_back(r);
     for (const AlertEvent& ev : report.events) {
@@ -167,6 +370,14 @@ int RunReplay(const ReplayCommandOptions& options, std::ostream& out, std::ostre
          << " window, " << window << " rows):\n\n";
     WriteFitText(table, as_fit, summary, body);
   }
+  if (log) {
+    st = log->Commit();
+    if (!st.ok()) {
+      err << options.db << ": " << st.message() << "\n";
+      return kExitBadInput;
+    }
+    err << log->Describe(monitor->rows()) << "\n";
+  }
   out << body.str();
   return kExitOk;
 }
@@ -179,6 +390,9 @@ Command RegisterReplayCommand(CLI::App* parent) {
       ->required()
       ->type_name("FILE");
   sub->add_flag("--json", options->json, "JSON lines instead of the readable timeline");
+  sub->add_option("--db", options->db,
+                  "also write rimwatchd's SQLite log of this run to FILE (see below)")
+      ->type_name("FILE");
   sub->footer(std::string(kReplayFooter) + kExitCodeHelp);
   return Command{sub, [options] {
                    options->progress = isatty(STDERR_FILENO) != 0;
