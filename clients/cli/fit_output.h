@@ -15,8 +15,8 @@ inline constexpr const char* kCaution =
     "Caution: statistical output is evidence, not trading or policy advice; validate on your own "
     "history before acting.";
 
-// The JSON document. Doubles are stored as they are; nlohmann::json prints the shortest text that
-// reads back to the same double, so the numbers round-trip exactly.
+// The JSON document: daemon::FitReportJson (rimwatch/daemon/fit_json.h, shared with the daemon's
+// state reply) with the table's labels of the first and last estimation rows.
 // REQUIRES: `report` came from FitVar(table data, table.names, options) with status OK.
 nlohmann::ordered_json FitReportJson(const CsvTable& table, const FitOptions& options,
                                      const FitReport& report);
