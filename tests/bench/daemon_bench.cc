@@ -1,0 +1,351 @@
+// rimwatchd throughput and latency over TCP loopback with durable acks, beside a bare baseline
+// run in the same process: the same ROUTER/DEALER pattern, the same wire decoder and the same
+// SQLite inserts through the Store (group commit, synchronous FULL), no engine.
+//
+//   daemon_bench --bin-dir build/bin [--rows 60000] [--window 2000] [--every 100]
+//
+// Prints, for the bare baseline, one (3,2) model, and 100 (3,2) models: acked observations per
+// second (3 observations per row message), p50 / p99 send-to-ack latency, and for the single
+// model p50 / p99 send-to-alert-event latency of the alerts the scenario's break raises.
+#include <signal.h>
+#include <spawn.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <atomic>
+#include <chrono>
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <nlohmann/json.hpp>
+#include <random>
+#include <string>
+#include <thread>
+#include <vector>
+#include <zmq.hpp>
+#include <zmq_addon.hpp>
+
+#include "rimwatch/daemon/store.h"
+#include "rimwatch/daemon/wire.h"
+
+extern char** environ;
+
+namespace {
+
+using Clock = std::chrono::steady_clock;
+using nlohmann::json;
+namespace fs = std::filesystem;
+using namespace rimwatch::daemon;
+
+struct Figures {
+  double obs_per_s = 0;
+  double p50_ms = 0, p99_ms = 0;
+  double alert_p50_ms = -1, alert_p99_ms = -1;
+  std::size_t alerts = 0;
+};
+
+double Quantile(std::vector<double> v, double q) {
+  if (v.empty()) return -1;
+  std::sort(v.begin(), v.end());
+  return v[std::min(v.size() - 1, static_cast<std::size_t>(q * static_cast<double>(v.size())))];
+}
+
+// Rows of a (3,2) VAR; after row `brk` the first series becomes persistent (an alert source).
+std::vector<std::array<double, 3>> Simulate(int rows, int brk, std::uint64_t seed) {
+  std::mt19937_64 g(seed);
+  std::normal_distribution<double> e;
+  std::vector<std::array<double, 3>> out;
+  std::array<double, 3> y1{}, y2{};
+  for (int t = 0; t < rows; ++t) {
+    const double a1 = t < brk ? 0.3 : 0.9;
+    std::array<double, 3> y{};
+    y[0] = a1 * y1[0] + 0.08 * y2[0] + e(g);
+    y[1] = 0.2 * y1[1] + 0.1 * y1[0] + e(g);
+    y[2] = 0.25 * y1[2] - 0.1 * y2[2] + e(g);
+    y2 = y1;
+    y1 = y;
+    out.push_back(y);
+  }
+  return out;
+}
+
+std::string SpecText(const std::string& name, const std::string& prefix, int every) {
+  return "name = \"" + name + "\"\nvariables = [\"" + prefix + "a\", \"" + prefix + "b\", \"" +
+         prefix + "c\"]\nlags = 2\n[window]\nkind = \"sliding\"\nrows = 500\n[covariance]\n" +
+         "kind = \"HC3\"\nevery = " + std::to_string(every) + "\n[training]\nrows = 200\n" +
+         "[[restriction]]\nname = \"b-not-to-a\"\ngranger = { cause = [\"" + prefix +
+         "b\"], effect = [\"" + prefix + "a\"] }\n";
+}
+
+// Feeds `rows` row messages (model m = i % models), at most `window` in flight; measures acks
+// and, when `events` is set, alert events.
+Figures Feed(const std::string& ingest, const std::string& events, int models,
+             const std::vector<std::array<double, 3>>& data, int window) {
+  zmq::context_t ctx(1);
+  zmq::socket_t dealer(ctx, zmq::socket_type::dealer);
+  dealer.set(zmq::sockopt::linger, 0);
+  dealer.set(zmq::sockopt::sndhwm, 0);
+  dealer.set(zmq::sockopt::rcvhwm, 0);
+  dealer.connect(ingest);
+  zmq::socket_t sub(ctx, zmq::socket_type::sub);
+  if (!events.empty()) {
+    sub.set(zmq::sockopt::subscribe, "alert.");
+    sub.connect(events);
+    std::this_thread::sleep_for(std::chrono::milliseconds(300));
+  }
+  const std::size_t n = data.size();
+  std::vector<Clock::time_point> sent(n);
+  std::vector<double> lat;
+  lat.reserve(n);
+  std::map<std::string, std::vector<std::size_t>> period_to_index;  // per model prefix
+  std::vector<double> alert_lat;
+  std::size_t next = 0, acked = 0, in_flight = 0;
+  const auto t0 = Clock::now();
+  zmq::pollitem_t items[] = {{dealer.handle(), 0, ZMQ_POLLIN, 0}, {sub.handle(), 0, ZMQ_POLLIN, 0}};
+  char buf[512];
+  while (acked < n) {
+    while (next < n && in_flight < static_cast<std::size_t>(window)) {
+      const int m = static_cast<int>(next % static_cast<std::size_t>(models));
+      const long period = static_cast<long>(next / static_cast<std::size_t>(models)) + 1;
+      const std::string p = "m" + std::to_string(m) + "_";
+      const int len = std::snprintf(
+          buf, sizeof buf,
+          "{\"type\":\"row\",\"seq\":%zu,\"period\":%ld,\"values\":{\"%sa\":%.17g,\"%sb\":%.17g,"
+          "\"%sc\":%.17g}}",
+          next, period, p.c_str(), data[next][0], p.c_str(), data[next][1], p.c_str(),
+          data[next][2]);
+      sent[next] = Clock::now();
+      dealer.send(zmq::buffer(buf, static_cast<std::size_t>(len)), zmq::send_flags::none);
+      ++next;
+      ++in_flight;
+    }
+    zmq::poll(items, events.empty() ? 1 : 2, std::chrono::milliseconds(1000));
+    if (items[0].revents & ZMQ_POLLIN) {
+      for (;;) {
+        std::vector<zmq::message_t> frames;
+        if (!zmq::recv_multipart(dealer, std::back_inserter(frames), zmq::recv_flags::dontwait)) {
+          break;
+        }
+        const auto now = Clock::now();
+        const json r = json::parse(frames.back().to_string());
+        if (!r.value("ok", false)) {
+          std::fprintf(stderr, "refused: %s\n", r.dump().c_str());
+          std::exit(1);
+        }
+        const std::size_t seq = r["seq"].get<std::size_t>();
+        lat.push_back(std::chrono::duration<double, std::milli>(now - sent[seq]).count());
+        ++acked;
+        --in_flight;
+      }
+    }
+    if (!events.empty() && (items[1].revents & ZMQ_POLLIN)) {
+      for (;;) {
+        std::vector<zmq::message_t> frames;
+        if (!zmq::recv_multipart(sub, std::back_inserter(frames), zmq::recv_flags::dontwait)) {
+          break;
+        }
+        const auto now = Clock::now();
+        const json ev = json::parse(frames.back().to_string());
+        if (ev.value("transition", "") != "raised") continue;
+        const long period = std::stol(ev["period"].get<std::string>());
+        const std::string model = ev["model"].get<std::string>();
+        const int m = std::stoi(model.substr(1));
+        const std::size_t index =
+            static_cast<std::size_t>(period - 1) * static_cast<std::size_t>(models) +
+            static_cast<std::size_t>(m);
+        if (index < n) {
+          alert_lat.push_back(std::chrono::duration<double, std::milli>(now - sent[index]).count());
+        }
+      }
+    }
+  }
+  const double secs = std::chrono::duration<double>(Clock::now() - t0).count();
+  Figures f;
+  f.obs_per_s = 3.0 * static_cast<double>(n) / secs;
+  f.p50_ms = Quantile(lat, 0.5);
+  f.p99_ms = Quantile(lat, 0.99);
+  f.alert_p50_ms = Quantile(alert_lat, 0.5);
+  f.alert_p99_ms = Quantile(alert_lat, 0.99);
+  f.alerts = alert_lat.size();
+  return f;
+}
+
+// The bare baseline: the daemon's socket pattern, decoder and store writes, no engine.
+void BareServer(const std::string& endpoint, const std::string& db, std::atomic<bool>* stop,
+                std::atomic<bool>* ready) {
+  StoreOptions so;
+  so.path = db;
+  std::unique_ptr<Store> store;
+  if (!Store::Open(so, &store).ok()) std::abort();
+  zmq::context_t ctx(1);
+  zmq::socket_t router(ctx, zmq::socket_type::router);
+  router.set(zmq::sockopt::sndhwm, 0);
+  router.bind(endpoint);
+  ready->store(true);
+  std::map<std::string, SeriesInfo> series;
+  std::vector<std::pair<std::vector<zmq::message_t>, std::optional<std::int64_t>>> pending;
+  Clock::time_point started;
+  zmq::pollitem_t items[] = {{router.handle(), 0, ZMQ_POLLIN, 0}};
+  while (!stop->load()) {
+    zmq::poll(items, 1, std::chrono::milliseconds(store->in_transaction() ? 1 : 50));
+    for (;;) {
+      std::vector<zmq::message_t> frames;
+      if (!zmq::recv_multipart(router, std::back_inserter(frames), zmq::recv_flags::dontwait)) {
+        break;
+      }
+      zmq::message_t body = std::move(frames.back());
+      frames.pop_back();
+      Request req;
+      WireError err;
+      if (!DecodeRequest(body.to_string_view(), DecodeOptions{}, &req, &err)) std::abort();
+      if (!store->in_transaction()) {
+        store->Begin();
+        started = Clock::now();
+      }
+      for (const Observation& o : req.observations) {
+        auto it = series.find(o.series);
+        if (it == series.end()) {
+          SeriesInfo info;
+          store->EnsureSeries(o.series, o.period.kind, &info);
+          it = series.emplace(o.series, info).first;
+        }
+        PutOutcome outcome;
+        store->PutObservation(&it->second, o.period, o.value, o.released_at, "bench", &outcome);
+      }
+      pending.emplace_back(std::move(frames), req.seq);
+      if (Clock::now() - started >= std::chrono::milliseconds(5)) break;
+    }
+    if (store->in_transaction() && Clock::now() - started >= std::chrono::milliseconds(5)) {
+      store->Commit();
+      for (auto& [env, seq] : pending) {
+        for (auto& f : env) router.send(f, zmq::send_flags::sndmore);
+        const std::string reply = EncodeOk(seq);
+        router.send(zmq::buffer(reply), zmq::send_flags::none);
+      }
+      pending.clear();
+    }
+  }
+}
+
+pid_t StartDaemon(const std::string& bin_dir, const fs::path& dir, int port) {
+  std::ofstream(dir / "rimwatchd.toml")
+      << "[sockets]\ningest = \"tcp://127.0.0.1:" << port
+      << "\"\nevents = \"tcp://127.0.0.1:" << port + 1 << "\"\n[events]\nest_every = 0\n";
+  const std::string bin = bin_dir + "/rimwatchd";
+  std::vector<std::string> args = {bin,
+                                   "--data-dir",
+                                   (dir / "data").string(),
+                                   "--config",
+                                   (dir / "rimwatchd.toml").string(),
+                                   "--log-level",
+                                   "warn"};
+  std::vector<char*> argv;
+  for (auto& a : args) argv.push_back(a.data());
+  argv.push_back(nullptr);
+  pid_t pid = -1;
+  if (posix_spawn(&pid, bin.c_str(), nullptr, nullptr, argv.data(), environ) != 0) std::exit(1);
+  return pid;
+}
+
+void WaitHealthy(const std::string& ingest) {
+  zmq::context_t ctx(1);
+  zmq::socket_t s(ctx, zmq::socket_type::dealer);
+  s.set(zmq::sockopt::linger, 0);
+  s.connect(ingest);
+  const std::string req = R"({"type":"health","seq":1})";
+  s.send(zmq::buffer(req), zmq::send_flags::none);
+  zmq::pollitem_t items[] = {{s.handle(), 0, ZMQ_POLLIN, 0}};
+  zmq::poll(items, 1, std::chrono::milliseconds(120000));
+  if (!(items[0].revents & ZMQ_POLLIN)) {
+    std::fprintf(stderr, "rimwatchd did not answer\n");
+    std::exit(1);
+  }
+}
+
+void AddModels(const std::string& ingest, int models, int every) {
+  zmq::context_t ctx(1);
+  zmq::socket_t s(ctx, zmq::socket_type::dealer);
+  s.set(zmq::sockopt::linger, 0);
+  s.connect(ingest);
+  for (int m = 0; m < models; ++m) {
+    const std::string p = "m" + std::to_string(m) + "_";
+    const std::string req = json{{"type", "model.add"},
+                                 {"seq", m},
+                                 {"spec", SpecText("m" + std::to_string(m), p, every)}}
+                                .dump();
+    s.send(zmq::buffer(req), zmq::send_flags::none);
+    std::vector<zmq::message_t> frames;
+    (void)zmq::recv_multipart(s, std::back_inserter(frames));
+    const json r = json::parse(frames.back().to_string());
+    if (!r.value("ok", false)) {
+      std::fprintf(stderr, "model.add refused: %s\n", r.dump().c_str());
+      std::exit(1);
+    }
+  }
+}
+
+void Print(const char* what, const Figures& f, double bare) {
+  std::printf("%-26s %12.0f obs/s  %6.2f x bare  ack p50 %7.2f ms  p99 %7.2f ms", what, f.obs_per_s,
+              f.obs_per_s / bare, f.p50_ms, f.p99_ms);
+  if (f.alerts > 0) {
+    std::printf("  alert p50 %7.2f ms  p99 %7.2f ms (%zu alerts)", f.alert_p50_ms, f.alert_p99_ms,
+                f.alerts);
+  }
+  std::printf("\n");
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  std::string bin_dir = "build/bin";
+  int rows = 60000, window = 2000, every = 100;
+  for (int i = 1; i + 1 < argc; i += 2) {
+    const std::string k = argv[i];
+    if (k == "--bin-dir") bin_dir = argv[i + 1];
+    if (k == "--rows") rows = std::atoi(argv[i + 1]);
+    if (k == "--window") window = std::atoi(argv[i + 1]);
+    if (k == "--every") every = std::atoi(argv[i + 1]);
+  }
+  signal(SIGPIPE, SIG_IGN);
+  char tmpl[] = "/tmp/rimwatch-bench.XXXXXX";
+  const fs::path dir = mkdtemp(tmpl);
+  const int port = 27000 + static_cast<int>(getpid() % 2000) * 4;
+  std::printf(
+      "rimwatchd bench: %d row messages (3 observations each), %d in flight, "
+      "synchronous FULL, commit interval 5 ms, robust statistics every %d rows\n",
+      rows, window, every);
+
+  // Bare baseline.
+  Figures bare;
+  {
+    std::atomic<bool> stop{false}, ready{false};
+    const std::string ep = "tcp://127.0.0.1:" + std::to_string(port + 2);
+    std::thread server(BareServer, ep, (dir / "bare.sqlite").string(), &stop, &ready);
+    while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
+    bare = Feed(ep, "", 1, Simulate(rows, rows, 1), window);
+    stop.store(true);
+    server.join();
+  }
+  Print("bare (decode + store)", bare, bare.obs_per_s);
+
+  for (int models : {1, 100}) {
+    const fs::path d = dir / ("d" + std::to_string(models));
+    fs::create_directories(d);
+    const pid_t pid = StartDaemon(bin_dir, d, port);
+    const std::string ingest = "tcp://127.0.0.1:" + std::to_string(port);
+    const std::string events = "tcp://127.0.0.1:" + std::to_string(port + 1);
+    WaitHealthy(ingest);
+    AddModels(ingest, models, every);
+    const auto data = Simulate(rows, models == 1 ? rows / 2 : rows, 2);
+    const Figures f = Feed(ingest, models == 1 ? events : "", models, data, window);
+    kill(pid, SIGTERM);
+    waitpid(pid, nullptr, 0);
+    Print(models == 1 ? "rimwatchd, 1 model (3,2)" : "rimwatchd, 100 models", f, bare.obs_per_s);
+  }
+  fs::remove_all(dir);
+  std::printf("targets: >= 100000 obs/s for one (3,2) model; >= 0.60 x bare; ack p99 <= 20 ms\n");
+  return 0;
+}
