@@ -7,8 +7,14 @@
 #include <vector>
 
 #include "command.h"
+#include "feed_command.h"
 #include "fit_command.h"
+#include "health_command.h"
+#include "model_command.h"
 #include "replay_command.h"
+#include "report_command.h"
+#include "state_command.h"
+#include "tail_command.h"
 
 #ifndef RIMWATCH_VERSION
 #define RIMWATCH_VERSION "unknown"
@@ -21,9 +27,19 @@ constexpr const char* kDescription =
     "Run `rimwatch SUBCOMMAND --help` for the options of one subcommand.";
 
 constexpr const char* kFooter =
-    "\nExample:\n"
+    "\nOffline: fit, replay, report. With a running rimwatchd: model, feed, state, tail, health\n"
+    "(--endpoint / --events / --timeout; defaults tcp://127.0.0.1:7261 and :7262).\n"
+    "\n"
+    "Example:\n"
     "  rimwatch fit --csv clients/examples/desk_minutes.csv --lags 2 --granger beta:alpha\n"
+    "  rimwatch model add desk.toml && rimwatch feed history.csv && rimwatch state desk\n"
     "\n";
+
+// The codes only the daemon-facing subcommands use (see daemon_client.h).
+constexpr const char* kDaemonOnlyExitCodes =
+    "  4  (model, feed, state, health) the daemon refused the request or some input\n"
+    "  5  (model, feed, state, tail, health) the daemon could not be reached, or did not\n"
+    "     acknowledge everything within --timeout\n";
 
 }  // namespace
 
@@ -32,11 +48,17 @@ int main(int argc, char** argv) {
   CLI::App app(kDescription, "rimwatch");
   app.set_version_flag("--version", std::string("rimwatch ") + RIMWATCH_VERSION);
   app.require_subcommand(1);
-  app.footer(std::string(kFooter) + kExitCodeHelp);
+  app.footer(std::string(kFooter) + kExitCodeHelp + kDaemonOnlyExitCodes);
 
   std::vector<Command> commands;
   commands.push_back(RegisterFitCommand(&app));
   commands.push_back(RegisterReplayCommand(&app));
+  commands.push_back(RegisterReportCommand(&app));
+  commands.push_back(RegisterModelCommand(&app));
+  commands.push_back(RegisterFeedCommand(&app));
+  commands.push_back(RegisterStateCommand(&app));
+  commands.push_back(RegisterTailCommand(&app));
+  commands.push_back(RegisterHealthCommand(&app));
 
   try {
     app.parse(argc, argv);
