@@ -11,28 +11,29 @@
 #include <system_error>
 
 namespace rimwatch {
-namespace {
 
-constexpr std::string_view kPeriodColumn = "period";
-constexpr std::string_view kByteOrderMark = "\xEF\xBB\xBF";
-
-std::string_view Trim(std::string_view s) {
+std::string_view TrimCsvField(std::string_view s) {
   const auto first = s.find_first_not_of(" \t");
   if (first == std::string_view::npos) return {};
   const auto last = s.find_last_not_of(" \t");
   return s.substr(first, last - first + 1);
 }
 
-std::vector<std::string_view> SplitFields(std::string_view line) {
+std::vector<std::string_view> SplitCsvFields(std::string_view line) {
   std::vector<std::string_view> fields;
   std::size_t start = 0;
   while (true) {
     const std::size_t comma = line.find(',', start);
-    fields.push_back(Trim(line.substr(start, comma - start)));
+    fields.push_back(TrimCsvField(line.substr(start, comma - start)));
     if (comma == std::string_view::npos) return fields;
     start = comma + 1;
   }
 }
+
+namespace {
+
+constexpr std::string_view kPeriodColumn = "period";
+constexpr std::string_view kByteOrderMark = "\xEF\xBB\xBF";
 
 // A finite decimal number: [+-]digits[.digits][(e|E)[+-]digits]. std::from_chars is locale
 // independent and correctly rounded; the character filter keeps out "nan", "inf" and hex.
@@ -108,7 +109,7 @@ bool CsvParser::Line(int line_no, std::string_view raw) {
   if (line_no == 1 && raw.substr(0, kByteOrderMark.size()) == kByteOrderMark) {
     raw.remove_prefix(kByteOrderMark.size());
   }
-  const std::string_view text = Trim(raw);
+  const std::string_view text = TrimCsvField(raw);
   if (text.empty()) {
     if (header_seen_ && first_blank_after_data_ == 0) first_blank_after_data_ = line_no;
     return true;
@@ -121,7 +122,7 @@ bool CsvParser::Line(int line_no, std::string_view raw) {
     return Fail(first_blank_after_data_,
                 "blank line between observations (blank lines are allowed only at the end)");
   }
-  const std::vector<std::string_view> fields = SplitFields(text);
+  const std::vector<std::string_view> fields = SplitCsvFields(text);
   if (!header_seen_) return Header(line_no, fields);
   return Row(line_no, fields);
 }

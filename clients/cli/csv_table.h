@@ -53,6 +53,11 @@ struct CsvTable {
 
 // Parse `text` (the whole file) in the dialect above; `path` is used only in messages.
 // On failure returns false, fills *error and leaves *out unspecified.
+// The dialect's field rules, shared by every CSV reader of the CLI: a line split at ',' (no
+// quoting), each field trimmed of spaces and tabs.
+std::string_view TrimCsvField(std::string_view s);
+std::vector<std::string_view> SplitCsvFields(std::string_view line);
+
 bool ParseCsvTable(std::string_view text, const std::string& path, CsvTable* out, CsvError* error);
 
 // Read and parse the file at `path`. Files larger than kMaxCsvBytes are refused before parsing.

@@ -152,24 +152,6 @@ bool WideMessages(const std::string& text, const std::string& path,
 // The dialect of csv_table.h (comments, trimming, CRLF, BOM, no quotes, blank lines only at the
 // end), with text columns series, period, released_at and one number column value.
 
-std::string_view Trim(std::string_view s) {
-  const auto first = s.find_first_not_of(" \t");
-  if (first == std::string_view::npos) return {};
-  const auto last = s.find_last_not_of(" \t");
-  return s.substr(first, last - first + 1);
-}
-
-std::vector<std::string_view> SplitFields(std::string_view line) {
-  std::vector<std::string_view> fields;
-  std::size_t start = 0;
-  for (;;) {
-    const std::size_t comma = line.find(',', start);
-    fields.push_back(Trim(line.substr(start, comma - start)));
-    if (comma == std::string_view::npos) return fields;
-    start = comma + 1;
-  }
-}
-
 // As csv_table.cc: [+-]digits[.digits][(e|E)[+-]digits], finite, correctly rounded.
 bool ParseValue(std::string_view field, double* out) {
   if (field.empty() || field.find_first_not_of("0123456789.eE+-") != std::string_view::npos) {
@@ -212,7 +194,7 @@ class LongReader {
   bool Line(int line_no, std::string_view raw) {
     if (!raw.empty() && raw.back() == '\r') raw.remove_suffix(1);
     if (line_no == 1 && raw.substr(0, 3) == "\xEF\xBB\xBF") raw.remove_prefix(3);
-    const std::string_view text = Trim(raw);
+    const std::string_view text = TrimCsvField(raw);
     if (text.empty()) {
       if (col_series_ >= 0 && blank_ == 0) blank_ = line_no;
       return true;
@@ -224,7 +206,7 @@ class LongReader {
     if (blank_ != 0) {
       return Fail(blank_, "blank line between observations (blank lines only at the end)");
     }
-    const std::vector<std::string_view> fields = SplitFields(text);
+    const std::vector<std::string_view> fields = SplitCsvFields(text);
     return col_series_ < 0 ? Header(line_no, fields) : Row(line_no, fields);
   }
 

@@ -18,6 +18,7 @@
 #include "rimwatch/daemon/period.h"
 #include "rimwatch/daemon/record.h"
 #include "rimwatch/daemon/store.h"
+#include "rimwatch/daemon/wall_clock.h"
 #include "rimwatch/engine/monitor.h"
 
 namespace rimwatch::cli {
@@ -89,16 +90,6 @@ void WriteEventLine(const AlertEvent& ev, std::ostream& out) {
                 ev.monitor.c_str(), ev.raised ? "RAISED" : "cleared", AlertLevelName(ev.level),
                 ev.statistic, ev.threshold);
   out << head << ev.message << "\n";
-}
-
-// Wall-clock time as ISO 8601 UTC text, for the store's *_at columns (never seen by the engine).
-std::string NowUtc() {
-  const std::time_t t = std::chrono::system_clock::to_time_t(std::chrono::system_clock::now());
-  std::tm tm{};
-  gmtime_r(&t, &tm);
-  char buf[32];
-  std::strftime(buf, sizeof buf, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return buf;
 }
 
 // The period of every CSV row for --db: the period column parsed as rimwatchd parses periods
@@ -173,7 +164,7 @@ class ReplayLog {
   }
 
   Status Begin(const ModelSpec& spec, const std::string& spec_text, daemon::PeriodKind kind) {
-    now_ = NowUtc();
+    now_ = daemon::UtcNowText();
     Status st = store_->Begin();
     for (std::size_t i = 0; st.ok() && i < spec.var.variables.size(); ++i) {
       series_.emplace_back();

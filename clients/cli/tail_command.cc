@@ -1,5 +1,7 @@
 #include "tail_command.h"
 
+#include "rimwatch/daemon/wall_clock.h"
+
 #include <unistd.h>
 
 #include <atomic>
@@ -53,19 +55,6 @@ std::string LocalTime() {
   localtime_r(&t, &tm);
   char buf[32];
   std::strftime(buf, sizeof buf, "%Y-%m-%d %H:%M:%S", &tm);
-  return buf;
-}
-
-std::string UtcTime() {
-  const auto now = std::chrono::system_clock::now();
-  const std::time_t t = std::chrono::system_clock::to_time_t(now);
-  const auto ms =
-      std::chrono::duration_cast<std::chrono::milliseconds>(now.time_since_epoch()).count() % 1000;
-  std::tm tm{};
-  gmtime_r(&t, &tm);
-  char buf[80];
-  std::snprintf(buf, sizeof buf, "%04d-%02d-%02dT%02d:%02d:%02d.%03dZ", tm.tm_year + 1900,
-                tm.tm_mon + 1, tm.tm_mday, tm.tm_hour, tm.tm_min, tm.tm_sec, static_cast<int>(ms));
   return buf;
 }
 
@@ -236,7 +225,8 @@ int RunTail(const TailCommandOptions& options, std::ostream& out, std::ostream& 
     }
     if (!Wanted(options, topic, body)) continue;
     if (options.json) {
-      out << json{{"topic", topic}, {"received_at", UtcTime()}, {"event", body}}.dump() << "\n"
+      out << json{{"topic", topic}, {"received_at", daemon::UtcNowText()}, {"event", body}}.dump()
+          << "\n"
           << std::flush;
     } else {
       Line line = topic.rfind("alert.", 0) == 0 ? AlertLine(body)

@@ -24,6 +24,7 @@
 #include "rimwatch/daemon/model_spec_toml.h"
 #include "rimwatch/daemon/record.h"
 #include "rimwatch/daemon/store.h"
+#include "rimwatch/daemon/wall_clock.h"
 #include "rimwatch/daemon/wire.h"
 
 namespace rimwatch::daemon {
@@ -32,20 +33,6 @@ namespace {
 using json = nlohmann::ordered_json;
 using Clock = std::chrono::steady_clock;
 namespace fs = std::filesystem;
-
-// Wall-clock time as ISO 8601 UTC with milliseconds (store columns only; never the engine).
-std::string UtcNow() {
-  const auto now = std::chrono::system_clock::now();
-  const std::time_t secs = std::chrono::system_clock::to_time_t(now);
-  const auto ms =
-      std::chrono::duration_cast<std::chrono::milliseconds>(now.time_since_epoch()).count() % 1000;
-  std::tm tm{};
-  gmtime_r(&secs, &tm);
-  char buf[80];
-  std::snprintf(buf, sizeof buf, "%04d-%02d-%02dT%02d:%02d:%02d.%03dZ", tm.tm_year + 1900,
-                tm.tm_mon + 1, tm.tm_mday, tm.tm_hour, tm.tm_min, tm.tm_sec, static_cast<int>(ms));
-  return buf;
-}
 
 bool ReadText(const fs::path& path, std::string* out) {
   std::ifstream in(path, std::ios::binary);
@@ -252,7 +239,7 @@ struct Server::Impl {
       StoredModel m;
       m.name = spec.name;
       m.spec_text = text;
-      m.added_at = UtcNow();
+      m.added_at = UtcNowText();
       st = store->Begin();
       if (st.ok()) st = store->AddModel(m.name, m.spec_text, m.added_at, &m.id);
       if (st.ok()) st = store->Commit();
@@ -271,7 +258,7 @@ struct Server::Impl {
       }
     }
     if (!changes.empty()) {
-      const std::string now = UtcNow();
+      const std::string now = UtcNowText();
       st = store->Begin();
       for (const AlertEvent& e : changes) {
         if (!st.ok()) break;
@@ -346,13 +333,16 @@ struct Server::Impl {
     ModelHost& h = *state.host;
     for (const RowReport& report : outcome.reports) {
       ++rows_total;
-      Status st = RecordRow(*store, h.id(), h.monitor(), report, config.records, now);
+      const bool publish = config.est_every > 0 && (++state.est_counter % config.est_every) == 0;
+      std::optional<json> payload;
+      if (publish) payload = RowPayload(report);
+      Status st = RecordRow(*store, h.id(), h.monitor(), report, config.records, now,
+                            payload ? &*payload : nullptr);
       if (!st.ok()) return st;
       for (const AlertEvent& e : report.events) QueueAlert(e);
-      if (config.est_every > 0 && (++state.est_counter % config.est_every) == 0) {
-        json body = RowPayload(report);
-        body["model"] = h.name();
-        events.emplace_back(EstimateTopic(h.name()), body.dump());
+      if (publish) {
+        (*payload)["model"] = h.name();
+        events.emplace_back(EstimateTopic(h.name()), payload->dump());
       }
     }
     for (const std::string& why : outcome.refused) {
@@ -405,7 +395,7 @@ struct Server::Impl {
       PublishEvents();
       return;
     }
-    const std::string now = UtcNow();
+    const std::string now = UtcNowText();
     for (auto& state : hosts) {
       ModelHost& h = *state->host;
       if (!h.needs_rebuild()) continue;
@@ -469,7 +459,7 @@ struct Server::Impl {
       pending.push_back({std::move(envelope), req.seq, json::object()});
       return FailGroup(st);
     }
-    const std::string now = UtcNow();
+    const std::string now = UtcNowText();
     const auto wall = Clock::now();
     std::int64_t n_new = 0, n_dup = 0, n_rev = 0, n_late = 0;
     for (const Observation& o : req.observations) {
@@ -568,7 +558,7 @@ struct Server::Impl {
                   " s: its series have stopped arriving, so its estimates and alerts are frozen" +
                   (e.period.empty() ? std::string(".") : " at period " + e.period + ".");
       Status st = EnsureGroup();
-      if (st.ok()) st = store->PutAlert(state->host->id(), e, UtcNow());
+      if (st.ok()) st = store->PutAlert(state->host->id(), e, UtcNowText());
       if (!st.ok()) return FailGroup(st);
       state->stale = true;
       state->stale_alert = e;
@@ -635,7 +625,7 @@ struct Server::Impl {
     StoredModel m;
     m.name = spec.name;
     m.spec_text = req.spec_text;
-    m.added_at = UtcNow();
+    m.added_at = UtcNowText();
     std::vector<AlertEvent> changes;
     st = store->Begin();
     if (st.ok()) st = store->AddModel(m.name, m.spec_text, m.added_at, &m.id);
@@ -663,7 +653,7 @@ struct Server::Impl {
                     {ErrorCode::kUnknownModel, "model: no active model \"" + req.model + "\""});
     }
     Status st = store->Begin();
-    if (st.ok()) st = store->DropModel(req.model, UtcNow());
+    if (st.ok()) st = store->DropModel(req.model, UtcNowText());
     if (st.ok()) st = store->Commit();
     if (!st.ok()) {
       if (store->in_transaction()) store->Rollback();

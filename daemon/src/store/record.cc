@@ -77,7 +77,7 @@ Status SnapshotPayload(const Monitor& monitor, json* out) {
 
 Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
                  const RowReport& report, const RecordOptions& options,
-                 const std::string& recorded_at) {
+                 const std::string& recorded_at, const nlohmann::ordered_json* payload) {
   if (options.tests_every < 1) {
     return Status::InvalidArgument("record: tests_every = " + std::to_string(options.tests_every) +
                                    ": must be >= 1");
@@ -99,17 +99,17 @@ Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
       t.period = report.period;
       if (report.has_spectral_radius) t.rho = report.spectral_radius;
       t.rho_se = report.rho_se;
-      t.payload_json = RowPayload(report).dump();
+      t.payload_json = payload ? payload->dump() : RowPayload(report).dump();
       Status st = store.PutTest(t);
       if (!st.ok()) return st;
     }
     if (options.snapshot_every > 0 && report.row % options.snapshot_every == 0) {
-      json payload;
+      json snapshot;
       // A window that cannot be summarised (rank deficient, too few rows) has no snapshot; the
       // row's tests record says why ("estimate").
-      if (SnapshotPayload(monitor, &payload).ok()) {
+      if (SnapshotPayload(monitor, &snapshot).ok()) {
         Status st =
-            store.PutSnapshot(SnapshotRecord{model_id, report.row, report.period, payload.dump()});
+            store.PutSnapshot(SnapshotRecord{model_id, report.row, report.period, snapshot.dump()});
         if (!st.ok()) return st;
       }
     }

@@ -46,9 +46,10 @@ Status SnapshotPayload(const Monitor& monitor, nlohmann::ordered_json* out);
 
 // Writes the records of one row (see above); a refused row (report.status not OK) writes
 // nothing. kInvalidArgument outside a transaction or for options out of range; store errors as
-// they come.
+// they come. payload: RowPayload(report) when the caller already built it (rimwatchd publishes
+// the same body as est.<model>), so it is built once per row; nullptr builds it here if needed.
 Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
                  const RowReport& report, const RecordOptions& options,
-                 const std::string& recorded_at);
+                 const std::string& recorded_at, const nlohmann::ordered_json* payload = nullptr);
 
 }  // namespace rimwatch::daemon
