@@ -7,6 +7,7 @@
 #include <vector>
 
 #include "command.h"
+#include "demo_command.h"
 #include "feed_command.h"
 #include "fit_command.h"
 #include "health_command.h"
@@ -27,7 +28,8 @@ constexpr const char* kDescription =
     "Run `rimwatch SUBCOMMAND --help` for the options of one subcommand.";
 
 constexpr const char* kFooter =
-    "\nOffline: fit, replay, report. With a running rimwatchd: model, feed, state, tail, health\n"
+    "\nFirst look: demo (starts its own rimwatchd on invented data).\n"
+    "Offline: fit, replay, report. With a running rimwatchd: model, feed, state, tail, health\n"
     "(--endpoint / --events / --timeout; defaults tcp://127.0.0.1:7261 and :7262).\n"
     "\n"
     "Example:\n"
@@ -51,6 +53,7 @@ int main(int argc, char** argv) {
   app.footer(std::string(kFooter) + kExitCodeHelp + kDaemonOnlyExitCodes);
 
   std::vector<Command> commands;
+  commands.push_back(RegisterDemoCommand(&app));
   commands.push_back(RegisterFitCommand(&app));
   commands.push_back(RegisterReplayCommand(&app));
   commands.push_back(RegisterReportCommand(&app));
