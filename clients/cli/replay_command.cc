@@ -42,6 +42,10 @@ constexpr const char* kReplayFooter =
     "CSV that completed the model row, then a last line {\"summary\": ...} with the keys of\n"
     "`rimwatch fit --json` for the tracking window.\n"
     "\n"
+    "A row the model refuses (a value <= 0 under logdiff, a non-finite value) ends the replay\n"
+    "with exit 2. rimwatchd instead leaves the model as it was, reports the row and goes on;\n"
+    "--skip-refused does the same here, so the replay matches the daemon on such data too.\n"
+    "\n"
     "With --db FILE the replay also writes the SQLite log that rimwatchd writes (same schema,\n"
     "same records): the series of the spec's variables, every observation, the model with its\n"
     "spec text, and for every model row its tests record, its snapshot at the daemon's cadence\n"
@@ -293,6 +297,8 @@ int RunReplay(const ReplayCommandOptions& options, std::ostream& out, std::ostre
   std::vector<std::size_t> data_row_of;  // model row (1-based) -> 0-based data row
   Eigen::VectorXd raw(static_cast<Eigen::Index>(column.size()));
   std::size_t events = 0;
+  std::size_t refused = 0;
+  constexpr std::size_t kRefusalsShown = 20;
   for (std::size_t r = 0; r < table.rows(); ++r) {
     for (std::size_t i = 0; i < column.size(); ++i)
       raw[static_cast<Eigen::Index>(i)] = table.value(r, column[i]);
@@ -306,8 +312,17 @@ int RunReplay(const ReplayCommandOptions& options, std::ostream& out, std::ostre
     }
     const RowReport report = monitor->Update(table.PeriodLabel(r), raw);
     if (!report.status.ok()) {
-      err << CsvError{table.path, table.lines[r], report.status.message()}.ToString() << "\n";
-      return kExitBadInput;
+      const std::string why =
+          CsvError{table.path, table.lines[r], report.status.message()}.ToString();
+      if (!options.skip_refused) {
+        err << why << "\n";
+        return kExitBadInput;
+      }
+      // What rimwatchd does with a row its model refuses: the row leaves the model as it was,
+      // the refusal is reported, and the next row goes on (ModelHost::RunRow).
+      if (options.progress) err << "\r\033[K";
+      if (++refused <= kRefusalsShown) err << why << " (row skipped)\n";
+      continue;
     }
     if (log) {
       st = log->Record(*monitor, report);
@@ -331,6 +346,10 @@ int RunReplay(const ReplayCommandOptions& options, std::ostream& out, std::ostre
     }
   }
   if (options.progress) err << "\r\033[K";
+  if (refused > 0) {
+    if (refused > kRefusalsShown) err << "(" << (refused - kRefusalsShown) << " more not shown)\n";
+    err << options.csv << ": " << refused << " rows refused by the model and skipped\n";
+  }
 
   FitReport summary;
   st = monitor->Summary(&summary);
@@ -381,6 +400,9 @@ Command RegisterReplayCommand(CLI::App* parent) {
       ->required()
       ->type_name("FILE");
   sub->add_flag("--json", options->json, "JSON lines instead of the readable timeline");
+  sub->add_flag("--skip-refused", options->skip_refused,
+                "go on past rows the model refuses (e.g. a value <= 0 under logdiff), as "
+                "rimwatchd does; each is named on stderr");
   sub->add_option("--db", options->db,
                   "also write rimwatchd's SQLite log of this run to FILE (see below)")
       ->type_name("FILE");

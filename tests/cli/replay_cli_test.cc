@@ -140,6 +140,42 @@ TEST(ReplayCli, BadInputIsExitTwoWithFileAndLine) {
   EXPECT_TRUE(r.out.empty());
 }
 
+// --skip-refused goes on past a refused row as rimwatchd does (ModelHost::RunRow): the model is
+// left as it was, so the run equals a replay of the file without that row.
+TEST(ReplayCli, SkipRefusedLeavesTheModelAsIfTheRowWereAbsent) {
+  const std::string logspec =
+      WriteTemp("skip.toml",
+                "name = \"l\"\nvariables = [\"a\", \"b\"]\nlags = 1\ntransform = { a = "
+                "\"logdiff\" }\n[training]\nrows = 20\n");
+  std::mt19937_64 gen(7);
+  std::normal_distribution<double> noise(0.0, 0.05);
+  std::ostringstream with, without;
+  with << "a,b\n";
+  without << "a,b\n";
+  double level = 100.0, b = 0.0;
+  for (int t = 1; t <= 120; ++t) {
+    level *= std::exp(noise(gen));
+    b = 0.5 * b + noise(gen);
+    if (t == 60) with << "-1," << b << "\n";  // refused: logdiff of a value <= 0
+    with << level << "," << b << "\n";
+    without << level << "," << b << "\n";
+  }
+  const std::string bad = WriteTemp("skip_with.csv", with.str());
+  const std::string good = WriteTemp("skip_without.csv", without.str());
+  const ProcessResult skipped =
+      Rimwatch({"replay", "--spec", logspec, "--csv", bad, "--json", "--skip-refused"});
+  ASSERT_EQ(skipped.exit_code, 0) << skipped.err;
+  EXPECT_NE(skipped.err.find("skip_with.csv:61:"), std::string::npos) << skipped.err;
+  EXPECT_NE(skipped.err.find("1 rows refused"), std::string::npos) << skipped.err;
+  const ProcessResult plain = Rimwatch({"replay", "--spec", logspec, "--csv", good, "--json"});
+  ASSERT_EQ(plain.exit_code, 0) << plain.err;
+  const json a = JsonLines(skipped.out).back()["summary"];
+  const json c = JsonLines(plain.out).back()["summary"];
+  EXPECT_EQ(a["coefficients"], c["coefficients"]);
+  EXPECT_EQ(a["sigma"], c["sigma"]);
+  EXPECT_EQ(a["model_rows"], c["model_rows"]);
+}
+
 // The whole --db log as JSON, read with Python's standard library sqlite3 module.
 constexpr const char* kDumpLog = R"py(
 import json, math, sqlite3, sys
