@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <iomanip>
+#include <limits>
 #include <map>
 #include <mutex>
 #include <sstream>
@@ -20,6 +21,9 @@ namespace {
 // regression gives a huge, finite value). 1e-10 is about 4.5e5 epsilon: far above rounding in
 // sums of a few thousand terms, far below any real conditioning.
 constexpr double kPivotFraction = 1e-10;
+
+// "No value" for a candidate (its normaliser failed or it was never evaluated).
+constexpr double kNone = -std::numeric_limits<double>::infinity();
 
 // Default shortest candidate window (see RestrictionMonitorOptions::MinWindow).
 constexpr std::int64_t kDefaultMinWindow = 50;
@@ -135,6 +139,9 @@ bool ScanDesign::IsValid(std::string* why) const {
     last = w;
   }
   if (stride_divisor < 1) return fail("scan: stride_divisor must be >= 1");
+  if (!(scale_penalty >= 0.0) || !std::isfinite(scale_penalty)) {
+    return fail("scan: scale_penalty must be finite and >= 0");
+  }
   if (!since_arming && windows.empty()) {
     return fail("scan: no candidate change rows (no windows and since_arming off)");
   }
@@ -269,7 +276,8 @@ ChangeScan::ChangeScan(ScanDesign design) : design_(std::move(design)) {
   current_.assign(record_, 0.0);
   work_.assign(PackedSize(q) + q, 0.0);
   for (std::int64_t w : design_.windows) stride_.push_back(Stride(w));
-  held_.assign(design_.windows.size() + 1, -1.0);
+  for (std::int64_t w : design_.windows) penalty_.push_back(ScalePenalty(design_, w));
+  held_.assign(design_.windows.size() + 1, kNone);
   held_window_.assign(design_.windows.size() + 1, 0);
   kernel_inv_ = Eigen::MatrixXd::Identity(q, q);
 }
@@ -282,7 +290,7 @@ void ChangeScan::Start(const Eigen::MatrixXd& pooled_ss, const Eigen::MatrixXd& 
   pooled_rows_ = pooled_rows;
   RefreshKernel();
   std::fill(current_.begin(), current_.end(), 0.0);
-  std::fill(held_.begin(), held_.end(), -1.0);
+  std::fill(held_.begin(), held_.end(), kNone);
   std::fill(held_window_.begin(), held_window_.end(), 0);
   countdown_ = stride_;
   next_arming_ = design_.min_window;
@@ -366,12 +374,12 @@ ScanValue ChangeScan::Add(const ScanRow& row) {
   Push(row);
   ForEachDue([&](int slot, const double* base, std::int64_t w) {
     const double x = Ratio(base, w);
-    held_[slot] = x < 0.0 ? -1.0 : static_cast<double>(w) * std::log1p(x);
+    held_[slot] = x < 0.0 ? kNone : static_cast<double>(w) * std::log1p(x) - Penalty(slot, w);
     held_window_[slot] = w;
   });
   ScanValue out;
   for (std::size_t j = 0; j < held_.size(); ++j) {
-    if (held_[j] < 0.0) continue;
+    if (held_[j] == kNone) continue;
     if (!out.available || held_[j] > out.statistic) {
       out.available = true;
       out.statistic = held_[j];
@@ -384,12 +392,26 @@ ScanValue ChangeScan::Add(const ScanRow& row) {
 double ChangeScan::AddAbove(const ScanRow& row, double floor) {
   Push(row);
   double best = floor;
-  ForEachDue([&](int, const double* base, std::int64_t w) {
-    const double wx = static_cast<double>(w) * Ratio(base, w);
-    if (wx <= best) return;  // L = w ln(1 + x) <= w x (also skips x = -1)
-    best = std::max(best, static_cast<double>(w) * std::log1p(wx / static_cast<double>(w)));
+  ForEachDue([&](int slot, const double* base, std::int64_t w) {
+    const double x = Ratio(base, w);
+    if (x < 0.0) return;
+    const double wd = static_cast<double>(w);
+    const double pen = Penalty(slot, w);
+    if (wd * x - pen <= best) return;  // L = w ln(1 + x) <= w x
+    best = std::max(best, wd * std::log1p(x) - pen);
   });
   return best;
+}
+
+double ChangeScan::Penalty(int slot, std::int64_t w) const {
+  if (slot < static_cast<int>(penalty_.size())) return penalty_[slot];
+  return ScalePenalty(design_, w);
+}
+
+double ScalePenalty(const ScanDesign& design, std::int64_t w) {
+  if (design.scale_penalty == 0.0 || w >= design.horizon_rows) return 0.0;
+  return design.scale_penalty *
+         std::log(static_cast<double>(design.horizon_rows) / static_cast<double>(w));
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -433,13 +455,13 @@ std::vector<double> SimulateScanMaxima(const ScanDesign& design, int paths, std:
     if (!training.Finish(&om, &pooled_ss, &pooled_v, &pooled_r)) continue;  // contributes 0
     const ScanScores scores(q, om);
     scan.Start(pooled_ss, pooled_v, pooled_r, training.rows());
-    double best = 0.0;
+    double best = kNone;
     for (std::int64_t t = 0; t < design.horizon_rows; ++t) {
       DrawRow(design, &rng, &u, &x, &z);
       scores.Build(u, z, &row);
       best = scan.AddAbove(row, best);
     }
-    maxima[static_cast<std::size_t>(path)] = best;
+    maxima[static_cast<std::size_t>(path)] = best == kNone ? 0.0 : best;
   }
   return maxima;
 }
@@ -471,7 +493,8 @@ ScanThresholds CachedScanThresholds(const ScanDesign& design, double warn_alpha,
   std::ostringstream key;
   key << std::hexfloat << design.q << '/' << design.training_scores << '/' << design.horizon_rows
       << '/' << design.min_window << '/' << design.stride_divisor << '/' << design.since_arming
-      << '/' << warn_alpha << '/' << critical_alpha << '/' << paths << '/' << seed << '/';
+      << '/' << design.scale_penalty << '/' << warn_alpha << '/' << critical_alpha << '/' << paths
+      << '/' << seed << '/';
   for (std::int64_t w : design.windows) key << w << ',';
   for (const Eigen::MatrixXd& b : design.blocks) {
     key << '[' << b.rows() << 'x' << b.cols();
@@ -528,6 +551,14 @@ bool RestrictionMonitorOptions::IsValid(int q, const VarSpec& spec, std::string*
     return fail("restriction monitor: window_ratio = " + Fmt(window_ratio) +
                 " must lie in (1, 16]");
   }
+  if (!(scale_penalty >= 0.0 && scale_penalty <= 10.0)) {
+    return fail("restriction monitor: scale_penalty = " + Fmt(scale_penalty) +
+                " must lie in [0, 10]");
+  }
+  if (stride_divisor < 1) {
+    return fail("restriction monitor: stride_divisor = " + std::to_string(stride_divisor) +
+                " must be >= 1");
+  }
   if (!(calibration_paths >= 1 && false_alarm * calibration_paths >= 20.0)) {
     return fail("restriction monitor: calibration_paths = " + std::to_string(calibration_paths) +
                 " must satisfy false_alarm * paths >= 20");
@@ -561,6 +592,8 @@ Status RestrictionMonitor::Create(const VarSpec& spec, LinearRestriction restric
   ScanDesign design =
       MakeScanDesign(spec, m.restriction_, options.training_rows, options.horizon_rows,
                      options.MinWindow(q), options.window_ratio);
+  design.stride_divisor = options.stride_divisor;
+  design.scale_penalty = options.scale_penalty;
   if (!design.IsValid(&why)) return Status::InvalidArgument("restriction monitor: " + why);
   m.thresholds_ = CachedScanThresholds(design, options.warn_false_alarm, options.false_alarm,
                                        options.calibration_paths, options.seed);

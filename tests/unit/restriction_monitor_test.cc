@@ -8,6 +8,7 @@
 #include <boost/math/distributions/binomial.hpp>
 #include <boost/math/distributions/fisher_f.hpp>
 #include <cmath>
+#include <cstdio>
 #include <limits>
 #include <random>
 #include <string>
@@ -105,6 +106,41 @@ TEST(ChangeScan, WindowStatisticIsTheRegressionLikelihoodRatio) {
   EXPECT_NEAR(value.statistic, expected, 1e3 * kEps * expected);
 }
 
+TEST(ChangeScan, ScalePenaltyShiftsEachCandidateByGammaLnHOverW) {
+  // gamma ln(H / w) from the definition; none at or beyond the horizon.
+  ScanDesign d = SingleLook(12);
+  d.horizon_rows = 48;
+  d.scale_penalty = 2.0;
+  EXPECT_NEAR(ScalePenalty(d, 12), 2.0 * std::log(4.0), 4.0 * kEps);
+  EXPECT_EQ(ScalePenalty(d, 48), 0.0);
+  EXPECT_EQ(ScalePenalty(d, 60), 0.0);
+  d.scale_penalty = 0.0;
+  EXPECT_EQ(ScalePenalty(d, 12), 0.0);
+  // The same rows through a penalised and an unpenalised single look (since arming, due first at
+  // w_0 = 12 rows): the readings differ by exactly 2 ln(48 / 12) at that row.
+  ScanDesign plain = SingleLook(12), penalised = SingleLook(12);
+  plain.horizon_rows = penalised.horizon_rows = 48;
+  plain.scale_penalty = 0.0;
+  penalised.scale_penalty = 2.0;
+  ChangeScan a(plain), b(penalised);
+  StartWithIdentityKernel(&a);
+  StartWithIdentityKernel(&b);
+  const ScanScores scores(2, Eigen::MatrixXd::Identity(1, 1));
+  DeterministicRandom rng(5);
+  ScanValue va, vb;
+  for (int t = 0; t < 12; ++t) {
+    Eigen::VectorXd u(1), z(2);
+    u << rng.Normal() + 0.3;
+    z << rng.Normal(), rng.Normal();
+    ScanRow row;
+    scores.Build(u, z, &row);
+    va = a.Add(row);
+    vb = b.Add(row);
+  }
+  ASSERT_TRUE(va.available && vb.available);
+  EXPECT_NEAR(va.statistic - vb.statistic, 2.0 * std::log(4.0), 64.0 * kEps * va.statistic);
+}
+
 TEST(ChangeScan, SingleLookFollowsTheFLaw) {
   // Under u ~ N(0, 1) independent of z, F = ((RSS_0 - RSS_1) / q) / (RSS_1 / (w - q)) is
   // F(q, w - q) (the regression F test; common practice), so L = w ln(1 + q F / (w - q)).
@@ -141,8 +177,9 @@ TEST(ChangeScan, SingleLookFollowsTheFLaw) {
 // ---------------------------------------------------------------------------------------------
 // Calibration
 
-ScanDesign SmallDesign() {
+ScanDesign SmallDesign(double scale_penalty = 2.0) {
   ScanDesign d;
+  d.scale_penalty = scale_penalty;
   d.q = 1;
   d.blocks = {Eigen::MatrixXd::Identity(1, 1)};
   d.training_scores = 60;
@@ -153,36 +190,96 @@ ScanDesign SmallDesign() {
 }
 
 TEST(CalibrateScan, DeterministicOrderedAndCached) {
-  const ScanDesign d = SmallDesign();
-  ASSERT_TRUE(d.IsValid(nullptr));
-  const ScanThresholds a = CalibrateScan(d, 0.2, 0.05, 1000, 11);
-  const ScanThresholds b = CalibrateScan(d, 0.2, 0.05, 1000, 11);
-  EXPECT_EQ(a.critical, b.critical);  // bit for bit
-  EXPECT_EQ(a.warn, b.warn);
-  EXPECT_GT(a.critical, a.warn);
-  const ScanThresholds c = CachedScanThresholds(d, 0.2, 0.05, 1000, 11);
-  EXPECT_EQ(c.critical, a.critical);
-  EXPECT_EQ(CachedScanThresholds(d, 0.2, 0.05, 1000, 11).critical, a.critical);
-  // A single window's statistic is about chi2(1); the maximum over many looks lies well above
-  // its 95% point 3.84.
-  EXPECT_GT(a.critical, 3.84);
+  for (double gamma : {0.0, 2.0}) {
+    const ScanDesign d = SmallDesign(gamma);
+    ASSERT_TRUE(d.IsValid(nullptr));
+    const ScanThresholds a = CalibrateScan(d, 0.2, 0.05, 1000, 11);
+    const ScanThresholds b = CalibrateScan(d, 0.2, 0.05, 1000, 11);
+    EXPECT_EQ(a.critical, b.critical) << gamma;  // bit for bit
+    EXPECT_EQ(a.warn, b.warn) << gamma;
+    EXPECT_GT(a.critical, a.warn) << gamma;
+    const ScanThresholds c = CachedScanThresholds(d, 0.2, 0.05, 1000, 11);
+    EXPECT_EQ(c.critical, a.critical) << gamma;
+    EXPECT_EQ(CachedScanThresholds(d, 0.2, 0.05, 1000, 11).critical, a.critical) << gamma;
+    if (gamma == 0.0) {
+      // A single window's statistic is about chi2(1); the maximum over many looks lies well
+      // above its 95% point 3.84.
+      EXPECT_GT(a.critical, 3.84);
+    } else {
+      // The cache tells the penalised design from the plain one, and the penalty (at least
+      // 2 ln(400 / 320) = 0.45 for every grid window) lowers the level.
+      EXPECT_LT(a.critical, CachedScanThresholds(SmallDesign(0.0), 0.2, 0.05, 1000, 11).critical);
+    }
+  }
 }
 
 TEST(CalibrateScan, ThresholdHoldsItsRateOnFreshPaths) {
-  const ScanDesign d = SmallDesign();
-  const int paths = 4000;
-  const ScanThresholds t = CalibrateScan(d, 0.2, 0.05, paths, 123);
-  const std::vector<double> fresh = SimulateScanMaxima(d, paths, 456);
-  int crit = 0, warn = 0;
-  for (double m : fresh) {
-    crit += m >= t.critical;
-    warn += m >= t.warn;
+  for (double gamma : {0.0, 2.0}) {
+    const ScanDesign d = SmallDesign(gamma);
+    const int paths = 4000;
+    const ScanThresholds t = CalibrateScan(d, 0.2, 0.05, paths, 123);
+    const std::vector<double> fresh = SimulateScanMaxima(d, paths, 456);
+    int crit = 0, warn = 0;
+    for (double m : fresh) {
+      crit += m >= t.critical;
+      warn += m >= t.warn;
+    }
+    // Two independent binomial errors (threshold and fresh share): 4 combined s.d. (common
+    // practice).
+    auto band = [&](double alpha) { return 4.0 * std::sqrt(2.0 * alpha * (1.0 - alpha) / paths); };
+    EXPECT_NEAR(crit / static_cast<double>(paths), 0.05, band(0.05)) << gamma;
+    EXPECT_NEAR(warn / static_cast<double>(paths), 0.20, band(0.20)) << gamma;
   }
-  // Two independent binomial errors (threshold and fresh share): 4 combined s.d. (common
-  // practice).
-  auto band = [&](double alpha) { return 4.0 * std::sqrt(2.0 * alpha * (1.0 - alpha) / paths); };
-  EXPECT_NEAR(crit / static_cast<double>(paths), 0.05, band(0.05));
-  EXPECT_NEAR(warn / static_cast<double>(paths), 0.20, band(0.20));
+}
+
+TEST(CalibrateScan, PenaltyMovesTheNullMaximumOffTheShortestWindows) {
+  // Under H0 the unpenalised maximum over a path is reached mostly on short windows (there are
+  // about H / w looks of w rows); gamma = 2 removes that multiplicity term, so the path maxima
+  // that reach the critical level come from longer windows more often. Counted here on the paths
+  // that reach each design's own 5% level: the share whose reading at the first crossing came
+  // from the shortest two grid windows (20, 28 rows). A property of the definition checked by
+  // simulation; the shares are reported, and the penalised one must be the smaller by a clear
+  // margin (binomial s.d. of each share at most 0.5 / sqrt(paths reaching) ~ 0.035).
+  const int paths = 4000;
+  double share[2] = {0.0, 0.0};
+  for (int g = 0; g < 2; ++g) {
+    const ScanDesign d = SmallDesign(g == 0 ? 0.0 : 2.0);
+    const ScanThresholds t = CalibrateScan(d, 0.2, 0.05, paths, 77);
+    ChangeScan scan(d);
+    DeterministicRandom rng(31);
+    int reached = 0, short_windows = 0;
+    Eigen::VectorXd u(1), z(1);
+    ScanRow row;
+    for (int path = 0; path < paths; ++path) {
+      ScanTraining training(1, 1);
+      for (std::int64_t s = 0; s < d.training_scores; ++s) {
+        u << rng.Normal();
+        z << rng.Normal();
+        training.Add(u, z);
+      }
+      Eigen::MatrixXd om, pss, pv;
+      double pr = 0.0;
+      ASSERT_TRUE(training.Finish(&om, &pss, &pv, &pr));
+      const ScanScores scores(1, om);
+      scan.Start(pss, pv, pr, training.rows());
+      for (std::int64_t s = 0; s < d.horizon_rows; ++s) {
+        u << rng.Normal();
+        z << rng.Normal();
+        scores.Build(u, z, &row);
+        const ScanValue v = scan.Add(row);
+        if (v.available && v.statistic >= t.critical) {
+          ++reached;
+          short_windows += v.window <= d.windows[1];
+          break;
+        }
+      }
+    }
+    ASSERT_GT(reached, 100);
+    share[g] = short_windows / static_cast<double>(reached);
+    std::printf("[montecarlo] scan.gamma_%d.short_window_share_of_crossings = %.3f (%d paths)\n",
+                g == 0 ? 0 : 2, share[g], reached);
+  }
+  EXPECT_GT(share[0], share[1] + 0.15);
 }
 
 TEST(ScanDesign, RejectsBrokenDesigns) {
@@ -298,6 +395,16 @@ TEST(RestrictionMonitor, CreateValidates) {
   o = SmallOptions();
   o.warn_false_alarm = 0.01;  // below false_alarm
   EXPECT_EQ(RestrictionMonitor::Create(spec, h0, o, &m).code(), StatusCode::kInvalidArgument);
+  o = SmallOptions();
+  o.scale_penalty = -1.0;
+  st = RestrictionMonitor::Create(spec, h0, o, &m);
+  EXPECT_EQ(st.code(), StatusCode::kInvalidArgument);
+  EXPECT_NE(st.message().find("scale_penalty"), std::string::npos) << st.message();
+  o = SmallOptions();
+  o.stride_divisor = 0;
+  st = RestrictionMonitor::Create(spec, h0, o, &m);
+  EXPECT_EQ(st.code(), StatusCode::kInvalidArgument);
+  EXPECT_NE(st.message().find("stride_divisor"), std::string::npos) << st.message();
   LinearRestriction zero = h0;
   zero.r_matrix.setZero();
   EXPECT_EQ(RestrictionMonitor::Create(spec, zero, SmallOptions(), &m).code(),
@@ -310,6 +417,8 @@ TEST(RestrictionMonitor, CreateValidates) {
   EXPECT_EQ(m.design().q, 2);
   EXPECT_EQ(m.design().equations(), 1);
   EXPECT_EQ(m.design().min_window, 50);  // max(50, 10 q)
+  EXPECT_EQ(m.design().scale_penalty, 2.0);
+  EXPECT_EQ(m.design().stride_divisor, 16);
   EXPECT_EQ(m.design().training_scores, 100 - spec.k());
 }
 
