@@ -84,11 +84,24 @@ bool WriteFile(const fs::path& path, const std::string& text, std::string* error
   return true;
 }
 
+// The longest directory path whose "<dir>/events.sock" still fits a Unix socket address
+// (sun_path holds 108 bytes with its terminating zero).
+constexpr std::size_t kMaxDirPath = 90;
+
+bool DirPathFits(const std::string& dir, std::string* error) {
+  if (dir.size() <= kMaxDirPath) return true;
+  *error = "the directory path " + dir +
+           " is too long for an ipc:// socket; use a shorter --dir or TMPDIR";
+  return false;
+}
+
 // A new directory: `requested` (created; must be absent or empty), or a fresh one under $TMPDIR.
+// Nothing is created when the path is too long for the demo's ipc:// sockets.
 bool MakeDataDir(const std::string& requested, fs::path* out, std::string* error) {
   std::error_code ec;
   if (!requested.empty()) {
     const fs::path dir = fs::absolute(requested, ec);
+    if (!DirPathFits(dir.string(), error)) return false;
     if (fs::exists(dir, ec) && !(fs::is_directory(dir, ec) && fs::is_empty(dir, ec))) {
       *error = "--dir " + requested + ": exists and is not an empty directory";
       return false;
@@ -103,6 +116,7 @@ bool MakeDataDir(const std::string& requested, fs::path* out, std::string* error
   }
   const char* tmp = std::getenv("TMPDIR");
   std::string pattern = std::string(tmp && *tmp ? tmp : "/tmp") + "/rimwatch-demo.XXXXXX";
+  if (!DirPathFits(pattern, error)) return false;  // mkdtemp keeps the length
   std::vector<char> buf(pattern.begin(), pattern.end());
   buf.push_back('\0');
   if (mkdtemp(buf.data()) == nullptr) {
@@ -409,11 +423,6 @@ int Run::Go() {
   }
   const std::string ingest = "ipc://" + (dir / "ingest.sock").string();
   const std::string events = "ipc://" + (dir / "events.sock").string();
-  if (ingest.size() > 100) {  // sun_path holds 108 bytes
-    err << "rimwatch demo: the directory path " << dir.string()
-        << " is too long for an ipc:// socket; use a shorter --dir or TMPDIR\n";
-    return kExitBadInput;
-  }
   connection.endpoint = ingest;
   connection.events = events;
   connection.timeout_s = 60;

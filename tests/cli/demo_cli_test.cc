@@ -259,6 +259,11 @@ TEST(DemoCli, RefusesADirectoryThatIsNotEmptyAndABadRate) {
   EXPECT_EQ(r.exit_code, 2);
   EXPECT_NE(r.err.find("not an empty directory"), std::string::npos) << r.err;
   EXPECT_EQ(ReadWholeFile((dir / "keep.txt").string()), "mine\n");
+  const fs::path deep = FreshDir("deep") / std::string(100, 'd');
+  r = Rimwatch({"demo", "--dir", deep.string()});
+  EXPECT_EQ(r.exit_code, 2);
+  EXPECT_NE(r.err.find("too long for an ipc:// socket"), std::string::npos) << r.err;
+  EXPECT_FALSE(fs::exists(deep)) << "nothing is created on a refusal";
   r = Rimwatch({"demo", "--rate", "-1", "--dir", FreshDir("rate").string()});
   EXPECT_EQ(r.exit_code, 2);
   r = Rimwatch({"demo", "--daemon", "/nonexistent/rimwatchd", "--dir", FreshDir("nod").string()});
