@@ -494,7 +494,9 @@ Status ConstancyMonitor::Observe(const VarEstimator& tracking, const VarEstimato
   }
   if (n < last_rows_) Reset();
   last_rows_ = n;
-  ConstancyReading r = last_;
+  // The reading is held between evaluations: updated in place, its text rebuilt only when an
+  // evaluation changed it (or after Reset, when it is still empty).
+  ConstancyReading& r = last_;
   r.evaluated = false;
   const std::int64_t m = options_.training_rows;
   const std::int64_t b = options_.block_rows;
@@ -513,8 +515,7 @@ Status ConstancyMonitor::Observe(const VarEstimator& tracking, const VarEstimato
       }
     }
   }
-  Fill(&r);
-  last_ = r;
+  if (r.evaluated || r.alarm.explanation.empty()) Fill(&r);
   *reading = r;
   return Status::Ok();
 }

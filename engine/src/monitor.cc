@@ -460,10 +460,10 @@ std::vector<std::string> Monitor::MonitorNames() const {
   return out;
 }
 
-Status Monitor::Summary(FitReport* out) const {
+Status Monitor::Summary(FitReport* out, bool with_diagnostics) const {
   *out = FitReport();
   Status st = SummarizeEstimate(impl_->tracking, impl_->spec.inference.covariance,
-                                impl_->restrictions, out);
+                                impl_->restrictions, out, with_diagnostics);
   out->rows = impl_->rows;
   out->first_row = impl_->spec.var.lags;
   return st;

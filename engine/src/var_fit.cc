@@ -54,7 +54,8 @@ std::vector<DiagnosticLine> FlattenDiagnostics(const ResidualDiagnostics& d, con
 }
 
 Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covariance,
-                         const std::vector<LinearRestriction>& restrictions, FitReport* out) {
+                         const std::vector<LinearRestriction>& restrictions, FitReport* out,
+                         bool with_diagnostics) {
   const VarSpec& spec = est.spec();
   out->spec = spec;
   Status st = est.Coefficients(&out->phi);
@@ -91,7 +92,7 @@ Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covar
 
   ResidualSample sample;
   out->diagnostics.clear();
-  if (WindowResiduals(est, 0, &sample).ok()) {
+  if (with_diagnostics && WindowResiduals(est, 0, &sample).ok()) {
     out->diagnostics =
         FlattenDiagnostics(RunResidualDiagnostics(sample, DiagnosticOptions()), spec);
   }

@@ -104,6 +104,17 @@ TEST(RecordTest, CadencesAlertsAndSnapshotsMatchTheMonitor) {
     ASSERT_TRUE(report.status.ok()) << report.status.ToString();
     ASSERT_OK(RecordRow(*store, model, *monitor, report, ro, "2026-01-01T00:00:01Z"));
     if (report.estimated) {
+      // The direct text writer says what the document tree says, number for number (each
+      // double's shortest text reads back to the same bits; json == compares values).
+      const json tree = RowPayload(report);
+      const std::string text = RowPayloadText(report);
+      ASSERT_EQ(json::parse(text), tree) << text;
+      std::string event;
+      const std::string name = "rec";
+      AppendRowPayloadText(report, &name, &event);
+      json with_model = tree;
+      with_model["model"] = name;
+      ASSERT_EQ(json::parse(event), with_model) << event;
       if (report.row % 5 == 0 || !report.events.empty()) {
         want.test_rows.insert(report.row);
         if (report.has_spectral_radius) {
@@ -304,6 +315,36 @@ TEST(RecordTest, RowPayloadWritesNullsAndUnavailableTests) {
             "\"r1\":{\"statistic\":4.5,\"df\":2,\"p_value\":0.105},\"r2\":{\"unavailable\":\"rank_"
             "deficient: singular R V R'\"}},\"monitors\":{\"cusum.a\":{\"armed\":false,"
             "\"statistic\":0.25,\"warn\":null,\"critical\":null}}}");
+  EXPECT_EQ(json::parse(RowPayloadText(report)), p);
+  EXPECT_EQ(RowPayloadText(report), p.dump());  // the same text here: no whole or tiny numbers
+}
+
+TEST(RecordTest, RowPayloadTextEscapesNamesAndKeepsDoublesExact) {
+  RowReport report;
+  report.estimated = true;
+  report.row = 3;
+  report.period = "q\"uote\\back\nline\x01";
+  report.has_spectral_radius = true;
+  report.spectral_radius = 1.0;  // whole: written 1.0, read back as a double
+  report.rho_se = 1e-300;
+  report.rows_to_unit = 123456789012.0;
+  MonitorSample sample;
+  sample.monitor = "restriction.a\tb";
+  sample.reading.armed = true;
+  sample.reading.statistic = 0.1 + 0.2;  // 0.30000000000000004
+  sample.reading.warn = std::nextafter(1.0, 2.0);
+  sample.reading.critical = -0.0;
+  report.readings.push_back(sample);
+  const std::string text = RowPayloadText(report);
+  const json back = json::parse(text);  // throws on bad escaping
+  EXPECT_EQ(back, RowPayload(report));
+  EXPECT_EQ(back["period"].get<std::string>(), report.period);
+  EXPECT_TRUE(back["rho"].is_number_float()) << text;
+  EXPECT_TRUE(back["rows_to_unit"].is_number_float()) << text;
+  const json& m = back["monitors"]["restriction.a\tb"];
+  EXPECT_TRUE(SameBits(m["statistic"].get<double>(), 0.1 + 0.2));
+  EXPECT_TRUE(SameBits(m["warn"].get<double>(), std::nextafter(1.0, 2.0)));
+  EXPECT_TRUE(SameBits(back["rho_se"].get<double>(), 1e-300));
 }
 
 }  // namespace

@@ -334,15 +334,13 @@ struct Server::Impl {
     for (const RowReport& report : outcome.reports) {
       ++rows_total;
       const bool publish = config.est_every > 0 && (++state.est_counter % config.est_every) == 0;
-      std::optional<json> payload;
-      if (publish) payload = RowPayload(report);
-      Status st = RecordRow(*store, h.id(), h.monitor(), report, config.records, now,
-                            payload ? &*payload : nullptr);
+      Status st = RecordRow(*store, h.id(), h.monitor(), report, config.records, now);
       if (!st.ok()) return st;
       for (const AlertEvent& e : report.events) QueueAlert(e);
       if (publish) {
-        (*payload)["model"] = h.name();
-        events.emplace_back(EstimateTopic(h.name()), payload->dump());
+        std::string body;
+        AppendRowPayloadText(report, &h.name(), &body);
+        events.emplace_back(EstimateTopic(h.name()), std::move(body));
       }
     }
     for (const std::string& why : outcome.refused) {

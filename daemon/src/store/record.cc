@@ -1,6 +1,7 @@
 // RecordRow and its payloads: what one Monitor row leaves in the store (record.h).
 #include "rimwatch/daemon/record.h"
 
+#include <charconv>
 #include <cmath>
 
 namespace rimwatch::daemon {
@@ -23,7 +24,136 @@ json Rows(const Eigen::MatrixXd& m) {
   return out;
 }
 
+// Appends JSON text directly (no document tree): the per-row payload is written on every row, and
+// building an nlohmann tree, then dumping it, cost more than the model update itself.
+class TextWriter {
+ public:
+  explicit TextWriter(std::string* out) : out_(*out) {}
+  void Raw(std::string_view s) { out_.append(s); }
+  void Key(std::string_view k) {
+    String(k);
+    out_.push_back(':');
+  }
+  // Quoted and escaped as JSON requires (quote, backslash, control characters).
+  void String(std::string_view s) {
+    out_.push_back('"');
+    for (const char c : s) {
+      const auto u = static_cast<unsigned char>(c);
+      if (c == '"' || c == '\\') {
+        out_.push_back('\\');
+        out_.push_back(c);
+      } else if (u < 0x20) {
+        static constexpr char kHex[] = "0123456789abcdef";
+        out_.append("\\u00");
+        out_.push_back(kHex[u >> 4]);
+        out_.push_back(kHex[u & 15]);
+      } else {
+        out_.push_back(c);
+      }
+    }
+    out_.push_back('"');
+  }
+  // Shortest text that reads back to the same double (std::to_chars); a whole number keeps a
+  // ".0" so readers see a floating-point value, as nlohmann's dump writes it. Non-finite: null.
+  void Number(double v) {
+    if (!std::isfinite(v)) {
+      out_.append("null");
+      return;
+    }
+    char buf[40];
+    const auto r = std::to_chars(buf, buf + sizeof buf, v);
+    const std::string_view text(buf, static_cast<std::size_t>(r.ptr - buf));
+    out_.append(text);
+    if (text.find_first_of(".e") == std::string_view::npos) out_.append(".0");
+  }
+  void Integer(std::int64_t v) {
+    char buf[24];
+    const auto r = std::to_chars(buf, buf + sizeof buf, v);
+    out_.append(buf, static_cast<std::size_t>(r.ptr - buf));
+  }
+  void Optional(const std::optional<double>& v) {
+    if (v) {
+      Number(*v);
+    } else {
+      out_.append("null");
+    }
+  }
+  void Bool(bool b) { out_.append(b ? "true" : "false"); }
+
+ private:
+  std::string& out_;
+};
+
 }  // namespace
+
+void AppendRowPayloadText(const RowReport& report, const std::string* model, std::string* out) {
+  TextWriter w(out);
+  w.Raw("{\"row\":");
+  w.Integer(report.row);
+  w.Raw(",\"period\":");
+  w.String(report.period);
+  w.Raw(",\"estimate\":");
+  w.String(report.estimate_status.ToString());
+  w.Raw(",\"rho\":");
+  if (report.has_spectral_radius) {
+    w.Number(report.spectral_radius);
+  } else {
+    w.Raw("null");
+  }
+  w.Raw(",\"rho_se\":");
+  w.Optional(report.rho_se);
+  w.Raw(",\"rows_to_unit\":");
+  w.Optional(report.rows_to_unit);
+  w.Raw(",\"restrictions\":{");
+  bool first = true;
+  for (const RestrictionRow& r : report.restrictions) {
+    if (!first) w.Raw(",");
+    first = false;
+    w.Key(r.name);
+    if (r.status.ok()) {
+      w.Raw("{\"statistic\":");
+      w.Number(r.wald.statistic);
+      w.Raw(",\"df\":");
+      w.Integer(r.wald.df);
+      w.Raw(",\"p_value\":");
+      w.Number(r.wald.p_value);
+      w.Raw("}");
+    } else {
+      w.Raw("{\"unavailable\":");
+      w.String(r.status.ToString());
+      w.Raw("}");
+    }
+  }
+  w.Raw("},\"monitors\":{");
+  first = true;
+  for (const MonitorSample& s : report.readings) {
+    if (!first) w.Raw(",");
+    first = false;
+    w.Key(s.monitor);
+    w.Raw("{\"armed\":");
+    w.Bool(s.reading.armed);
+    w.Raw(",\"statistic\":");
+    w.Number(s.reading.statistic);
+    w.Raw(",\"warn\":");
+    w.Number(s.reading.warn);
+    w.Raw(",\"critical\":");
+    w.Number(s.reading.critical);
+    w.Raw("}");
+  }
+  w.Raw("}");
+  if (model != nullptr) {
+    w.Raw(",\"model\":");
+    w.String(*model);
+  }
+  w.Raw("}");
+}
+
+std::string RowPayloadText(const RowReport& report) {
+  std::string out;
+  out.reserve(512);
+  AppendRowPayloadText(report, nullptr, &out);
+  return out;
+}
 
 json RowPayload(const RowReport& report) {
   json restrictions = json::object();
@@ -55,7 +185,7 @@ json RowPayload(const RowReport& report) {
 
 Status SnapshotPayload(const Monitor& monitor, json* out) {
   FitReport fit;
-  Status st = monitor.Summary(&fit);
+  Status st = monitor.Summary(&fit, /*with_diagnostics=*/false);
   if (!st.ok()) return st;
   json eigenvalues = json::array();
   for (const std::complex<double>& e : fit.eigenvalues) {
@@ -77,7 +207,7 @@ Status SnapshotPayload(const Monitor& monitor, json* out) {
 
 Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
                  const RowReport& report, const RecordOptions& options,
-                 const std::string& recorded_at, const nlohmann::ordered_json* payload) {
+                 const std::string& recorded_at, const std::string* payload_text) {
   if (options.tests_every < 1) {
     return Status::InvalidArgument("record: tests_every = " + std::to_string(options.tests_every) +
                                    ": must be >= 1");
@@ -99,7 +229,7 @@ Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
       t.period = report.period;
       if (report.has_spectral_radius) t.rho = report.spectral_radius;
       t.rho_se = report.rho_se;
-      t.payload_json = payload ? payload->dump() : RowPayload(report).dump();
+      t.payload_json = payload_text ? *payload_text : RowPayloadText(report);
       Status st = store.PutTest(t);
       if (!st.ok()) return st;
     }

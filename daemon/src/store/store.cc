@@ -9,6 +9,8 @@
 #include <cmath>
 #include <cstring>
 #include <limits>
+#include <string>
+#include <type_traits>
 #include <unordered_map>
 
 #include "store_ddl.h"
@@ -194,6 +196,12 @@ struct Store::Impl {
 
   Status StepDone(sqlite3_stmt* s, std::string_view what) {
     if (sqlite3_step(s) != SQLITE_DONE) return SqliteError(db, what);
+    return Status::Ok();
+  }
+  // The same for the per-row statements: the context text is built only on failure.
+  template <typename What>
+  requires std::is_invocable_r_v<std::string, What> Status StepDone(sqlite3_stmt* s, What&& what) {
+    if (sqlite3_step(s) != SQLITE_DONE) return SqliteError(db, what());
     return Status::Ok();
   }
 
@@ -578,7 +586,7 @@ Status Store::PutObservation(SeriesInfo* series, const Period& period, double va
     sqlite3_bind_double(s, 5, value);
     BindOptionalText(s, 6, released_at);
     BindText(s, 7, received_at);
-    st = impl_->StepDone(s, "store series " + state->name + " period " + text);
+    st = impl_->StepDone(s, [&] { return "store series " + state->name + " period " + text; });
     if (!st.ok()) return st;
     if (result == PutOutcome::kNew) {
       impl_->RememberBefore(series->id);
@@ -686,8 +694,10 @@ Status Store::PutTest(const TestRecord& record) {
   BindOptionalDouble(s, 4, record.rho);
   BindOptionalDouble(s, 5, record.rho_se);
   BindText(s, 6, record.payload_json);
-  return impl_->StepDone(s, "record tests of model " + std::to_string(record.model_id) + " row " +
-                                std::to_string(record.row));
+  return impl_->StepDone(s, [&] {
+    return "record tests of model " + std::to_string(record.model_id) + " row " +
+           std::to_string(record.row);
+  });
 }
 
 Status Store::PutSnapshot(const SnapshotRecord& record) {
@@ -699,8 +709,10 @@ Status Store::PutSnapshot(const SnapshotRecord& record) {
   sqlite3_bind_int64(s, 2, record.row);
   BindText(s, 3, record.period);
   BindText(s, 4, record.payload_json);
-  return impl_->StepDone(s, "record snapshot of model " + std::to_string(record.model_id) +
-                                " row " + std::to_string(record.row));
+  return impl_->StepDone(s, [&] {
+    return "record snapshot of model " + std::to_string(record.model_id) + " row " +
+           std::to_string(record.row);
+  });
 }
 
 Status Store::PutAlert(std::int64_t model_id, const AlertEvent& event,

@@ -39,6 +39,11 @@ struct RecordOptions {
 // rows that are not robust rows (RowReport::restrictions); doubles print as the shortest text
 // that reads back to the same double.
 nlohmann::ordered_json RowPayload(const RowReport& report);
+// The same document written directly as text (what the store and est.<model> carry; equal to
+// RowPayload(report) as JSON values, number for number). model: when not null, a last member
+// "model" (the event body). Appends to *out.
+void AppendRowPayloadText(const RowReport& report, const std::string* model, std::string* out);
+std::string RowPayloadText(const RowReport& report);
 
 // {"coefficients":[[..]],"se":[[..]],"sigma":[[..]],"eigenvalues":[[re,im],..],"rho":..,
 //  "rho_se":..|null,"regressors":[..],"variables":[..]} from Monitor::Summary.
@@ -46,10 +51,10 @@ Status SnapshotPayload(const Monitor& monitor, nlohmann::ordered_json* out);
 
 // Writes the records of one row (see above); a refused row (report.status not OK) writes
 // nothing. kInvalidArgument outside a transaction or for options out of range; store errors as
-// they come. payload: RowPayload(report) when the caller already built it (rimwatchd publishes
-// the same body as est.<model>), so it is built once per row; nullptr builds it here if needed.
+// they come. payload_text: RowPayloadText(report) when the caller already built it; nullptr
+// builds it here if needed.
 Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
                  const RowReport& report, const RecordOptions& options,
-                 const std::string& recorded_at, const nlohmann::ordered_json* payload = nullptr);
+                 const std::string& recorded_at, const std::string* payload_text = nullptr);
 
 }  // namespace rimwatch::daemon

@@ -107,8 +107,9 @@ class Monitor {
   const VarEstimator& tracking() const;
   // The raise events of the alerts active now (most recent raise per monitor).
   std::vector<AlertEvent> ActiveAlerts() const;
-  // The tracking estimate summarised (keys of `rimwatch fit`), restrictions as tests.
-  Status Summary(FitReport* out) const;
+  // The tracking estimate summarised (keys of `rimwatch fit`), restrictions as tests;
+  // with_diagnostics = false skips the residual tests (SummarizeEstimate).
+  Status Summary(FitReport* out, bool with_diagnostics = true) const;
   // Names of the monitors in event order.
   std::vector<std::string> MonitorNames() const;
 

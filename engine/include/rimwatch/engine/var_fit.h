@@ -78,8 +78,11 @@ struct FitReport {
 // The current estimate of any estimator, summarised: coefficients with standard errors of the
 // chosen kind, sigmas, companion eigenvalues, rho with its SE, and one Wald test per restriction.
 // Fills every field of *out except rows/first_row/criteria. Shared by FitVar and the Monitor.
+// with_diagnostics = false leaves out->diagnostics empty (the residual tests cost more than the
+// rest of the summary; periodic snapshots do not store them).
 Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covariance,
-                         const std::vector<LinearRestriction>& restrictions, FitReport* out);
+                         const std::vector<LinearRestriction>& restrictions, FitReport* out,
+                         bool with_diagnostics = true);
 
 // data: rows x n (oldest first), names: n variable names. Errors: invalid options, non-finite
 // data (naming the row and variable), too few rows, rank deficiency.
