@@ -1,4 +1,4 @@
--- rimwatch store, schema version 1: the durable log of one rimwatchd (or one `rimwatch replay
+-- rimwatch store, schema version 2: the durable log of one rimwatchd (or one `rimwatch replay
 -- --db`). SQLite 3.37 or later (STRICT tables). This file is the one source of the schema: the
 -- build compiles it into the store library, which runs it on a new file and then writes the
 -- version row; an older file is upgraded step by step by the store's migrations. Read it with any
@@ -44,12 +44,17 @@ CREATE TABLE observations (
 
 -- Models as added (the TOML spec text as given) and dropped. A dropped model keeps its row and
 -- its records; its name may be added again, as a new model id. At most one active model per name.
+-- recorded_inputs (version 2): how many of the model's input rows (complete periods, in period
+-- order) have their tests, snapshots and alerts written; rimwatchd acknowledges observations
+-- before the model has run them, and on restart records the rows after this count. NULL: every
+-- row is recorded (a version 1 file, or a `rimwatch replay --db` log).
 CREATE TABLE models (
   id INTEGER PRIMARY KEY,
   name TEXT NOT NULL,
   spec_text TEXT NOT NULL,
   added_at TEXT NOT NULL,
-  dropped_at TEXT
+  dropped_at TEXT,
+  recorded_inputs INTEGER CHECK (recorded_inputs >= 0)
 ) STRICT;
 CREATE UNIQUE INDEX models_active_name ON models (name) WHERE dropped_at IS NULL;
 

@@ -247,7 +247,7 @@ TEST(ReplayCli, DbLogHoldsTheRunAndItsAlertsEqualTheJsonEvents) {
   const json log = DumpLog(db);
   EXPECT_EQ(log["integrity"], "ok");
   EXPECT_EQ(log["journal_mode"], "wal");
-  EXPECT_EQ(log["version"], 1);
+  EXPECT_EQ(log["version"], 2);
   EXPECT_EQ(log["series"], json::parse(R"([["a","integer"],["b","integer"]])"));
   EXPECT_EQ(log["observations"], 3000);  // 1500 rows x 2 series
   EXPECT_EQ(log["max_vintage"], 1);

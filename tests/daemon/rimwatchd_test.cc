@@ -11,7 +11,9 @@
 #include <random>
 #include <set>
 
+#include <sqlite3.h>
 #include "daemon/daemon_harness.h"
+
 #include "rimwatch/daemon/store.h"
 
 namespace {
@@ -285,6 +287,30 @@ TEST(Rimwatchd, KillNineMidStreamLosesNoAckedObservation) {
   std::string integrity;
   ASSERT_TRUE(store->IntegrityCheck(&integrity).ok());
   EXPECT_EQ(integrity, "ok");
+  // Every model row has its tests record once (tests_every = 1), including rows that were
+  // acknowledged but not yet run by the model thread when the daemon was killed, and the record
+  // cursor covers every input row.
+  sqlite3* db = nullptr;
+  ASSERT_EQ(sqlite3_open_v2((dir / "data" / "rimwatch.sqlite").c_str(), &db, SQLITE_OPEN_READONLY,
+                            nullptr),
+            SQLITE_OK);
+  auto ints = [&](const char* sql) {
+    sqlite3_stmt* q = nullptr;
+    std::vector<std::int64_t> out;
+    if (sqlite3_prepare_v2(db, sql, -1, &q, nullptr) == SQLITE_OK &&
+        sqlite3_step(q) == SQLITE_ROW) {
+      for (int i = 0; i < sqlite3_column_count(q); ++i) out.push_back(sqlite3_column_int64(q, i));
+    }
+    sqlite3_finalize(q);
+    return out;
+  };
+  const auto rows = static_cast<std::int64_t>(s.rows.size()) - 1;
+  EXPECT_EQ(ints("SELECT COUNT(*), COUNT(DISTINCT row), MIN(row), MAX(row) FROM tests"),
+            (std::vector<std::int64_t>{rows, rows, 1, rows}))
+      << "cut at row " << cut;
+  EXPECT_EQ(ints("SELECT recorded_inputs FROM models"),
+            (std::vector<std::int64_t>{static_cast<std::int64_t>(s.rows.size())}));
+  sqlite3_close(db);
 }
 
 TEST(Rimwatchd, RevisionsReestimateToAReplayOfTheRevisedData) {

@@ -56,13 +56,13 @@ TEST(StoreTest, FreshFileGetsTheCurrentSchemaVersion) {
     auto s = OpenStore(path);
     ASSERT_TRUE(s);
     EXPECT_EQ(s->schema_version(), Store::CurrentSchemaVersion());
-    EXPECT_EQ(Store::CurrentSchemaVersion(), 1);
+    EXPECT_EQ(Store::CurrentSchemaVersion(), 2);
     EXPECT_EQ(s->path(), path);
     EXPECT_FALSE(s->in_transaction());
   }
   SqliteFile f(path);
   EXPECT_EQ(f.Int("SELECT COUNT(*) FROM schema_version"), 1);
-  EXPECT_EQ(f.Int("SELECT version FROM schema_version"), 1);
+  EXPECT_EQ(f.Int("SELECT version FROM schema_version"), 2);
   EXPECT_EQ(f.Rows("PRAGMA journal_mode")[0][0], "wal");
   const auto tables = f.Rows("SELECT name FROM sqlite_schema WHERE type = 'table' ORDER BY name");
   std::vector<std::string> names;
@@ -87,7 +87,7 @@ TEST(StoreTest, NewerOrUnknownSchemaVersionsAreRefused) {
   for (bool read_only : {false, true}) {
     const Status st = TryOpen(path, read_only);
     EXPECT_EQ(st.code(), StatusCode::kInvalidArgument);
-    EXPECT_NE(st.message().find("has schema version 7, newer than this build knows (1); use a "
+    EXPECT_NE(st.message().find("has schema version 7, newer than this build knows (2); use a "
                                 "newer rimwatch"),
               std::string::npos)
         << st.message();
@@ -104,6 +104,39 @@ TEST(StoreTest, NewerOrUnknownSchemaVersionsAreRefused) {
     f.Exec("DELETE FROM schema_version");
   }
   EXPECT_NE(TryOpen(path).message().find("schema_version table has no row"), std::string::npos);
+}
+
+// A version 1 file (the models table without recorded_inputs) is upgraded in place on open:
+// its models keep their rows, the new column reads NULL (every row recorded), and the upgraded
+// table has the same columns as a fresh version 2 file.
+TEST(StoreTest, VersionOneFileIsUpgraded) {
+  const std::string fresh = FreshDir("store_v1") + "/fresh.db";
+  const std::string path = FreshDir("store_v1") + "/old.db";
+  OpenStore(fresh);
+  {
+    auto s = OpenStore(path);
+    std::int64_t id = 0;
+    ASSERT_OK(s->Begin());
+    ASSERT_OK(s->AddModel("m", "name = \"m\"\n", "2026-01-01T00:00:00Z", &id));
+    ASSERT_OK(s->Commit());
+  }
+  {
+    SqliteFile f(path);  // make it what version 1 wrote
+    f.Exec("ALTER TABLE models DROP COLUMN recorded_inputs");
+    f.Exec("UPDATE schema_version SET version = 1");
+  }
+  auto s = OpenStore(path);
+  ASSERT_TRUE(s);
+  EXPECT_EQ(s->schema_version(), 2);
+  std::vector<StoredModel> active;
+  ASSERT_OK(s->ActiveModels(&active));
+  ASSERT_EQ(active.size(), 1u);
+  EXPECT_EQ(active[0].name, "m");
+  EXPECT_FALSE(active[0].recorded_inputs.has_value());
+  SqliteFile old_file(path), new_file(fresh);
+  EXPECT_EQ(old_file.Rows("SELECT name, type, \"notnull\" FROM pragma_table_info('models')"),
+            new_file.Rows("SELECT name, type, \"notnull\" FROM pragma_table_info('models')"));
+  EXPECT_EQ(old_file.Int("SELECT version FROM schema_version"), 2);
 }
 
 TEST(StoreTest, OutcomesAndVintages) {
@@ -394,6 +427,15 @@ TEST(StoreTest, ModelsAddDropList) {
   EXPECT_EQ(active[1].id, x2);
   EXPECT_EQ(active[1].spec_text, "name = \"x\"\nlags = 2\n");
   EXPECT_EQ(active[1].added_at, "2026-01-03T00:00:00Z");
+  EXPECT_FALSE(active[1].recorded_inputs.has_value());
+  ASSERT_OK(s->Begin());
+  ASSERT_OK(s->SetRecordedInputs(x2, 17));
+  EXPECT_EQ(s->SetRecordedInputs(x2, -1).code(), StatusCode::kInvalidArgument);
+  EXPECT_EQ(s->SetRecordedInputs(999, 1).code(), StatusCode::kInvalidArgument);
+  ASSERT_OK(s->Commit());
+  EXPECT_EQ(s->SetRecordedInputs(x2, 18).code(), StatusCode::kInvalidArgument);  // no transaction
+  ASSERT_OK(s->ActiveModels(&active));
+  EXPECT_EQ(active[1].recorded_inputs, std::optional<std::int64_t>(17));
   SqliteFile f(path);
   EXPECT_EQ(f.Rows("SELECT id, dropped_at FROM models ORDER BY id"),
             (std::vector<std::vector<std::string>>{{std::to_string(x), "2026-01-02T00:00:00Z"},

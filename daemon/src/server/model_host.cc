@@ -52,25 +52,27 @@ std::uint64_t ModelHost::Fingerprint(std::int64_t key, const Eigen::VectorXd& ra
   return h;
 }
 
-void ModelHost::RunRow(std::int64_t key, const std::string& text, const Eigen::VectorXd& raw,
-                       RowOutcome* out) {
-  fingerprints_.push_back(Fingerprint(key, raw));
-  last_key_ = key;
-  last_text_ = text;
-  RowReport report = monitor_->Update(text, raw);
+void ModelHost::Admit(const InputRow& row) {
+  fingerprints_.push_back(Fingerprint(row.key, row.raw));
+  last_key_ = row.key;
+  last_text_ = row.text;
+}
+
+void ModelHost::Run(const InputRow& row, RowOutcome* out) {
+  RowReport report = monitor_->Update(row.text, row.raw);
   if (!report.status.ok()) {
-    out->refused.push_back("period " + text + ": " + report.status.message());
+    out->refused.push_back("period " + row.text + ": " + report.status.message());
     return;
   }
   if (report.estimated) {
-    row_keys_.push_back(key);
+    row_keys_.push_back(row.key);
     last_report_ = report;
     out->reports.push_back(std::move(report));
   }
 }
 
 void ModelHost::Offer(int var, const Period& period, double value, PutOutcome outcome,
-                      RowOutcome* out) {
+                      std::vector<InputRow>* ready) {
   if (outcome == PutOutcome::kDuplicate) return;
   if (needs_rebuild_) return;  // the rebuild reads everything from the store
   if (last_key_ && period.key <= *last_key_) {
@@ -86,13 +88,13 @@ void ModelHost::Offer(int var, const Period& period, double value, PutOutcome ou
   if (!p.values[var]) ++p.filled;
   p.values[var] = value;
   if (p.filled < n) return;
-  // Complete: run it; older incomplete periods can no longer become rows without changing history.
-  Eigen::VectorXd raw(n);
-  for (int j = 0; j < n; ++j) raw[j] = *p.values[j];
-  const std::string text = p.text;
-  const std::int64_t key = period.key;
-  pending_.erase(pending_.begin(), std::next(pending_.find(key)));
-  RunRow(key, text, raw, out);
+  // Complete: admit it; older incomplete periods can no longer become rows without changing
+  // history.
+  InputRow row{period.key, p.text, Eigen::VectorXd(n)};
+  for (int j = 0; j < n; ++j) row.raw[j] = *p.values[j];
+  pending_.erase(pending_.begin(), std::next(pending_.find(row.key)));
+  Admit(row);
+  ready->push_back(std::move(row));
 }
 
 Status ModelHost::Rebuild(Store& store, const RebuildOptions& options,
@@ -139,13 +141,40 @@ Status ModelHost::Rebuild(Store& store, const RebuildOptions& options,
   for (const auto& [key, p] : all) {
     if (p.filled == n) last_complete = key;
   }
+  const bool tail_mode = options.record_from_input.has_value();
+  std::vector<AlertEvent> tail_events;
   for (auto& [key, p] : all) {
     if (last_complete && key <= *last_complete) {
       if (p.filled < n) continue;
-      Eigen::VectorXd raw(n);
-      for (int j = 0; j < n; ++j) raw[j] = *p.values[j];
+      InputRow row{key, p.text, Eigen::VectorXd(n)};
+      for (int j = 0; j < n; ++j) row.raw[j] = *p.values[j];
       const std::size_t index = fingerprints_.size();
-      const std::uint64_t print = Fingerprint(key, raw);
+      if (tail_mode) {
+        // Restart: inputs before the cursor have their records; the rest are recorded now, with
+        // their alerts, as they would have been had the daemon not stopped.
+        const bool record =
+            options.record && static_cast<std::int64_t>(index) >= *options.record_from_input;
+        if (record && !changed) {
+          changed = true;
+          st = store.DeleteRecordsAfter(model_id_, monitor_->rows());  // none expected; be sure
+          if (!st.ok()) return st;
+        }
+        const std::size_t first_new = out->reports.size();
+        Admit(row);
+        Run(row, out);
+        if (record) {
+          for (std::size_t i = first_new; i < out->reports.size(); ++i) {
+            st = RecordRow(store, model_id_, *monitor_, out->reports[i], options.record_options,
+                           options.recorded_at);
+            if (!st.ok()) return st;
+            for (const AlertEvent& e : out->reports[i].events) tail_events.push_back(e);
+          }
+        } else {
+          out->reports.resize(first_new);
+        }
+        continue;
+      }
+      const std::uint64_t print = Fingerprint(key, row.raw);
       if (!changed && (index >= old_prints.size() || old_prints[index] != print)) {
         changed = true;
         changed_after_row = monitor_->rows();
@@ -156,7 +185,8 @@ Status ModelHost::Rebuild(Store& store, const RebuildOptions& options,
       }
       RowOutcome* sink = changed ? out : &scratch;
       const std::size_t first_new = sink->reports.size();
-      RunRow(key, p.text, raw, sink);
+      Admit(row);
+      Run(row, sink);
       if (changed && options.record) {
         RecordOptions ro = options.record_options;
         ro.alerts = false;
@@ -169,6 +199,14 @@ Status ModelHost::Rebuild(Store& store, const RebuildOptions& options,
     } else {
       pending_.emplace(key, std::move(p));
     }
+  }
+  if (tail_mode) {
+    for (RowReport& r : out->reports) r.events.clear();
+    for (AlertEvent& e : tail_events) {
+      e.model = spec_.name;
+      alert_changes->push_back(std::move(e));
+    }
+    return Status::Ok();
   }
   if (!changed && fingerprints_.size() < old_prints.size()) {
     // History got shorter (cannot happen with append-only vintages, but stay truthful).

@@ -10,7 +10,9 @@
 #include <ctime>
 #include <filesystem>
 #include <fstream>
+#include <functional>
 #include <map>
+#include <mutex>
 #include <optional>
 #include <sstream>
 #include <string>
@@ -22,6 +24,7 @@
 #include "rimwatch/daemon/fit_json.h"
 #include "rimwatch/daemon/model_host.h"
 #include "rimwatch/daemon/model_spec_toml.h"
+#include "rimwatch/daemon/model_thread.h"
 #include "rimwatch/daemon/record.h"
 #include "rimwatch/daemon/store.h"
 #include "rimwatch/daemon/wall_clock.h"
@@ -50,8 +53,23 @@ struct HostState {
   Clock::time_point last_data;
   bool stale = false;
   std::optional<AlertEvent> stale_alert;  // the raise event while stale
-  std::int64_t est_counter = 0;
+  std::int64_t est_counter = 0;           // model thread
   std::string rebuild_reason;
+  // Input rows whose results the poll thread has taken (their records are in the open group or
+  // committed), and the count the store's recorded_inputs holds (committed).
+  std::int64_t taken_inputs = 0;
+  std::int64_t stored_inputs = 0;
+  bool cursor_frozen = false;  // a failed recovery left a gap: the cursor waits for a restart
+};
+
+// What the model thread made of one input row, for the poll thread to record and publish.
+struct RowDone {
+  HostState* state = nullptr;
+  std::int64_t inputs = 0;  // the host's input count once this row ran
+  RowOutcome outcome;
+  std::vector<RowRecords> records;      // one per outcome.reports
+  std::vector<std::string> est_bodies;  // est.<model> events of these rows
+  Status status;                        // PrepareRecords' failure, if any
 };
 
 struct SeriesEntry {
@@ -97,11 +115,22 @@ struct Server::Impl {
   std::vector<std::pair<Clock::time_point, std::int64_t>> rate_samples;  // (time, rows_total)
   Clock::time_point last_housekeeping = Clock::now();
 
+  // Model updates run on the model thread; their results wait in `done` for the poll thread.
+  // Observations are acknowledged once committed, before their rows have run (see
+  // DEVELOPERS.md, "rimwatchd's two threads"); at most kMaxBacklog rows wait for the models
+  // before the poll thread stops reading requests.
+  static constexpr std::size_t kMaxBacklog = 4096;
+  std::mutex done_mutex;
+  std::vector<RowDone> done;
+  ModelThread model_thread;  // last member: stopped (joined) before the hosts go
+
   // ---- models -------------------------------------------------------------------------------
-  // Builds the host of a stored model and rebuilds it from stored observations. adding: the
-  // model is new (inside the caller's transaction): its rows are recorded and its active alerts
-  // raised. Otherwise (start): nothing is re-recorded; the alerts the rebuilt monitor holds are
-  // compared with the stored log and only the differences become events.
+  // Builds the host of a stored model and rebuilds it from stored observations, inside the
+  // caller's transaction. adding: the model is new: its rows are recorded and its active alerts
+  // raised. Otherwise (start): the rows after the stored recorded_inputs (acknowledged, not yet
+  // run when the daemon stopped) are recorded with their alerts, which become events; then the
+  // alerts the rebuilt monitor holds are compared with the stored log and only the differences
+  // become events (none, when the log is whole).
   Status LoadHost(const StoredModel& stored, bool adding, std::vector<AlertEvent>* changes) {
     ModelSpec spec;
     Status st = ParseModelSpecToml(stored.spec_text, "model " + stored.name, &spec);
@@ -118,19 +147,29 @@ struct Server::Impl {
     if (!st.ok()) return st;
     state->last_data = Clock::now();
     RebuildOptions ro;
-    ro.record = adding;
+    ro.record = adding || stored.recorded_inputs.has_value();
     ro.record_options = config.records;
-    ro.recorded_at = stored.added_at;
+    ro.recorded_at = adding ? stored.added_at : UtcNowText();
     ro.reason = "After adding the model";
+    if (!adding && stored.recorded_inputs) ro.record_from_input = *stored.recorded_inputs;
     RowOutcome outcome;
     std::vector<AlertEvent> added;
     st = state->host->Rebuild(*store, ro, &added, &outcome);
     if (!st.ok()) return st;
     rows_refused += static_cast<std::int64_t>(outcome.refused.size());
     const ModelHost& h = *state->host;
+    state->taken_inputs = h.inputs();
+    st = store->SetRecordedInputs(stored.id, h.inputs());
+    if (!st.ok()) return st;
+    state->stored_inputs = h.inputs();  // once the caller commits
     if (adding) {
       for (AlertEvent& e : added) changes->push_back(e);
     } else {
+      if (!added.empty()) {
+        spdlog::info("model {}: recorded {} alert transitions of rows acknowledged before the stop",
+                     h.name(), added.size());
+      }
+      for (AlertEvent& e : added) changes->push_back(e);
       // What the log says is active versus what the rebuilt monitor says.
       std::vector<AlertEvent> log;
       st = store->LoadAlerts(stored.id, &log);
@@ -147,8 +186,13 @@ struct Server::Impl {
       std::vector<AlertEvent> diff =
           AlertChanges(ActiveFromLog(model_log), h.monitor().ActiveAlerts(), h.rows(),
                        h.last_period(), "On restart");
+      const std::string now = UtcNowText();
       for (AlertEvent& e : diff) {
         e.model = h.name();
+        st = store->PutAlert(stored.id, e, now);
+        if (!st.ok()) return st;
+        spdlog::warn("alert {} {} {} on restart: {}", e.model, e.monitor,
+                     e.raised ? "raised" : "cleared", e.message);
         changes->push_back(e);
       }
     }
@@ -250,28 +294,19 @@ struct Server::Impl {
       spdlog::info("model {}: added from {}", m.name, file.string());
       active.push_back(m);
     }
-    std::vector<AlertEvent> changes;
+    // Each model in its own transaction: its unrecorded tail, its cursor and any alert changes.
     for (const StoredModel& m : active) {
-      st = LoadHost(m, false, &changes);
-      if (!st.ok()) {
-        spdlog::error("model {}: not loaded: {}", m.name, st.ToString());
-      }
-    }
-    if (!changes.empty()) {
-      const std::string now = UtcNowText();
+      std::vector<AlertEvent> changes;  // recorded by LoadHost
       st = store->Begin();
-      for (const AlertEvent& e : changes) {
-        if (!st.ok()) break;
-        HostState* h = FindHost(e.model);
-        if (h) st = store->PutAlert(h->host->id(), e, now);
-        spdlog::warn("alert {} {} {} on restart: {}", e.model, e.monitor,
-                     e.raised ? "raised" : "cleared", e.message);
-      }
+      if (st.ok()) st = LoadHost(m, false, &changes);
       if (st.ok()) st = store->Commit();
-      if (!st.ok()) return st;
-      for (const AlertEvent& e : changes) {
-        events.emplace_back(AlertTopic(e.model), AlertEventJson(e).dump());
+      if (!st.ok()) {
+        if (store->in_transaction()) store->Rollback();
+        if (HostState* h = FindHost(m.name)) Unregister(h);
+        spdlog::error("model {}: not loaded: {}", m.name, st.ToString());
+        continue;
       }
+      for (const AlertEvent& e : changes) QueueAlert(e);
     }
 
     try {
@@ -328,28 +363,90 @@ struct Server::Impl {
                  AlertLevelName(e.level), e.message);
   }
 
-  // Records and queues what rows of one host produced. Returns a storage failure.
-  Status TakeOutcome(HostState& state, RowOutcome& outcome, const std::string& now) {
-    ModelHost& h = *state.host;
-    for (const RowReport& report : outcome.reports) {
-      ++rows_total;
-      const bool publish = config.est_every > 0 && (++state.est_counter % config.est_every) == 0;
-      Status st = RecordRow(*store, h.id(), h.monitor(), report, config.records, now);
-      if (!st.ok()) return st;
-      for (const AlertEvent& e : report.events) QueueAlert(e);
-      if (publish) {
+  // ---- the model thread --------------------------------------------------------------------
+  // Model thread: runs one input row of a host and prepares its records and est events.
+  // inputs: the host's input count with this row (counted when it was admitted).
+  void RunInput(HostState* state, const InputRow& row, std::int64_t inputs) {
+    RowDone d;
+    d.state = state;
+    d.inputs = inputs;
+    ModelHost& h = *state->host;
+    h.Run(row, &d.outcome);
+    for (const RowReport& report : d.outcome.reports) {
+      RowRecords records;
+      Status st = PrepareRecords(h.id(), h.monitor(), report, config.records, &records);
+      if (!st.ok()) d.status = st;
+      d.records.push_back(std::move(records));
+      if (config.est_every > 0 && (++state->est_counter % config.est_every) == 0) {
         std::string body;
         AppendRowPayloadText(report, &h.name(), &body);
-        events.emplace_back(EstimateTopic(h.name()), std::move(body));
+        d.est_bodies.push_back(std::move(body));
       }
     }
-    for (const std::string& why : outcome.refused) {
-      ++rows_refused;
-      json body = {{"code", "row_refused"}, {"model", h.name()}, {"message", why}, {"count", 1}};
-      events.emplace_back(kRejectTopic, body.dump());
-      spdlog::warn("model {}: row refused: {}", h.name(), why);
+    std::lock_guard<std::mutex> lock(done_mutex);
+    done.push_back(std::move(d));
+  }
+
+  // Poll thread: queues the admitted rows of one host for the model thread.
+  void SubmitRows(HostState* state, std::vector<InputRow>& ready) {
+    std::vector<std::function<void()>> tasks;
+    tasks.reserve(ready.size());
+    std::int64_t inputs = state->host->inputs() - static_cast<std::int64_t>(ready.size());
+    for (InputRow& row : ready) {
+      ++inputs;
+      tasks.emplace_back(
+          [this, state, inputs, row = std::move(row)] { RunInput(state, row, inputs); });
+    }
+    ready.clear();
+    model_thread.Submit(std::move(tasks));
+  }
+
+  bool HasDone() {
+    std::lock_guard<std::mutex> lock(done_mutex);
+    return !done.empty();
+  }
+
+  // Poll thread: records and queues what the model thread finished, in the open group (opened
+  // here if none is). Returns a storage failure.
+  Status Collect() {
+    std::vector<RowDone> batch;
+    {
+      std::lock_guard<std::mutex> lock(done_mutex);
+      batch.swap(done);
+    }
+    if (batch.empty()) return Status::Ok();
+    Status st = EnsureGroup();
+    if (!st.ok()) return st;
+    const std::string now = UtcNowText();
+    for (RowDone& d : batch) {
+      HostState& state = *d.state;
+      ModelHost& h = *state.host;
+      if (!d.status.ok()) return d.status;
+      for (std::size_t i = 0; i < d.outcome.reports.size(); ++i) {
+        ++rows_total;
+        st = WriteRecords(*store, h.id(), d.records[i], now);
+        if (!st.ok()) return st;
+        for (const AlertEvent& e : d.outcome.reports[i].events) QueueAlert(e);
+      }
+      for (std::string& body : d.est_bodies) {
+        events.emplace_back(EstimateTopic(h.name()), std::move(body));
+      }
+      for (const std::string& why : d.outcome.refused) {
+        ++rows_refused;
+        json body = {{"code", "row_refused"}, {"model", h.name()}, {"message", why}, {"count", 1}};
+        events.emplace_back(kRejectTopic, body.dump());
+        spdlog::warn("model {}: row refused: {}", h.name(), why);
+      }
+      state.taken_inputs = d.inputs;
     }
     return Status::Ok();
+  }
+
+  // Poll thread: waits for the model thread to finish every queued row, then collects. After it
+  // the poll thread may read and change every host.
+  Status Drain() {
+    model_thread.Drain();
+    return Collect();
   }
 
   // ---- groups -------------------------------------------------------------------------------
@@ -373,22 +470,67 @@ struct Server::Impl {
       std::optional<SeriesInfo> info;
       if (store->FindSeries(name, &info).ok()) entry.info = info;
     }
+    // What the model thread made of rows of the failed group is dropped: the rebuild below
+    // starts again from what is committed.
+    model_thread.Drain();
+    {
+      std::lock_guard<std::mutex> lock(done_mutex);
+      done.clear();
+    }
     for (auto& state : hosts) {
       ModelHost& h = *state->host;
       for (std::size_t j = 0; j < h.spec().var.variables.size(); ++j) {
         auto it = series.find(h.spec().var.variables[j]);
         if (it != series.end() && it->second.info) h.set_series_id(j, it->second.info->id);
       }
+      // As on restart: the committed records cover the first stored_inputs rows; the rows after
+      // them (acknowledged in earlier groups, recorded in the failed one) are recorded again.
       RebuildOptions ro;
-      ro.record = false;
-      std::vector<AlertEvent> ignored;
+      ro.record = !state->cursor_frozen;
+      ro.record_options = config.records;
+      ro.recorded_at = UtcNowText();
+      ro.record_from_input = state->stored_inputs;
+      std::vector<AlertEvent> tail;
       RowOutcome outcome;
-      Status st = h.Rebuild(*store, ro, &ignored, &outcome);
-      if (!st.ok()) spdlog::error("model {}: rebuild failed: {}", h.name(), st.ToString());
+      Status st = store->Begin();
+      if (st.ok()) st = h.Rebuild(*store, ro, &tail, &outcome);
+      if (st.ok() && ro.record) st = store->SetRecordedInputs(h.id(), h.inputs());
+      if (st.ok()) st = store->Commit();
+      if (st.ok()) {
+        state->taken_inputs = h.inputs();
+        if (ro.record) state->stored_inputs = h.inputs();
+        for (const AlertEvent& e : tail) QueueAlert(e);
+        continue;
+      }
+      if (store->in_transaction()) store->Rollback();
+      ro.record = false;
+      tail.clear();
+      outcome = RowOutcome();
+      Status again = h.Rebuild(*store, ro, &tail, &outcome);
+      // The store cursor stays where it is until a restart records the rows after it (their
+      // tests and snapshots are rewritten then; alerts raised in between may be logged twice).
+      state->cursor_frozen = true;
+      state->taken_inputs = h.inputs();
+      spdlog::error(
+          "model {}: records of rows after input {} not written ({}); they are "
+          "written on the next restart{}",
+          h.name(), state->stored_inputs, st.ToString(),
+          again.ok() ? "" : "; rebuild failed: " + again.ToString());
     }
+    PublishEvents();
   }
 
-  void Flush() {
+  // Commits the open group: first what the model thread finished (drain: every queued row),
+  // re-estimations after revisions, the record cursors; then acks and events.
+  void Flush(bool drain) {
+    Status st = drain ? Drain() : Collect();
+    if (!st.ok()) return FailGroup(st);
+    const bool rebuild = std::any_of(hosts.begin(), hosts.end(),
+                                     [](const auto& h) { return h->host->needs_rebuild(); });
+    if (rebuild && !drain) {
+      st = Drain();
+      if (!st.ok()) return FailGroup(st);
+    }
     if (!store->in_transaction()) {
       PublishEvents();
       return;
@@ -404,8 +546,9 @@ struct Server::Impl {
       ro.reason = "After " + state->rebuild_reason;
       std::vector<AlertEvent> changes;
       RowOutcome outcome;
-      Status st = h.Rebuild(*store, ro, &changes, &outcome);
+      st = h.Rebuild(*store, ro, &changes, &outcome);
       if (!st.ok()) return FailGroup(st);
+      state->taken_inputs = h.inputs();
       spdlog::info("model {}: re-estimated after {} ({} rows re-run)", h.name(),
                    state->rebuild_reason, outcome.reports.size());
       rows_refused += static_cast<std::int64_t>(outcome.refused.size());
@@ -413,12 +556,20 @@ struct Server::Impl {
       state->rebuild_reason.clear();
     }
     if (config.retention_rows > 0 && (commits % 256) == 0) {
-      Status st = store->PruneRecords(config.retention_rows);
+      st = store->PruneRecords(config.retention_rows);
       if (!st.ok()) return FailGroup(st);
     }
-    Status st = store->Commit();
+    for (auto& state : hosts) {
+      if (state->cursor_frozen || state->taken_inputs == state->stored_inputs) continue;
+      st = store->SetRecordedInputs(state->host->id(), state->taken_inputs);
+      if (!st.ok()) return FailGroup(st);
+    }
+    st = store->Commit();
     if (!st.ok()) return FailGroup(st);
     ++commits;
+    for (auto& state : hosts) {
+      if (!state->cursor_frozen) state->stored_inputs = state->taken_inputs;
+    }
     for (PendingReply& p : pending) SendReply(p.envelope, EncodeOk(p.seq, p.result));
     pending.clear();
     pending_obs = 0;
@@ -490,17 +641,20 @@ struct Server::Impl {
       for (auto& [state, var] : entry.users) {
         ModelHost& h = *state->host;
         const bool was = h.needs_rebuild();
-        RowOutcome rows;
-        h.Offer(var, o.period, o.value, outcome, &rows);
+        std::vector<InputRow> ready;
+        h.Offer(var, o.period, o.value, outcome, &ready);
+        SubmitRows(state, ready);
         state->last_data = wall;
-        if (state->stale) ClearStale(*state, now);
+        if (state->stale) {
+          st = Drain();  // the clear event carries the host's row count
+          if (!st.ok()) break;
+          ClearStale(*state, now);
+        }
         if (!was && h.needs_rebuild()) {
           state->rebuild_reason =
               std::string(outcome == PutOutcome::kRevision ? "a revision" : "a value") + " of " +
               o.series + " for period " + o.period.text;
         }
-        st = TakeOutcome(*state, rows, now);
-        if (!st.ok()) break;
       }
       if (!st.ok()) break;
     }
@@ -539,6 +693,13 @@ struct Server::Impl {
   void CheckStale() {
     if (config.stale_after_s <= 0) return;
     const auto wall = Clock::now();
+    const bool any = std::any_of(hosts.begin(), hosts.end(), [&](const auto& s) {
+      return !s->stale &&
+             std::chrono::duration<double>(wall - s->last_data).count() >= config.stale_after_s;
+    });
+    if (!any) return;
+    Status drained = Drain();  // the stale events carry each host's row count
+    if (!drained.ok()) return FailGroup(drained);
     for (auto& state : hosts) {
       if (state->stale) continue;
       const double silent = std::chrono::duration<double>(wall - state->last_data).count();
@@ -583,7 +744,7 @@ struct Server::Impl {
   }
 
   void HandleControl(std::vector<zmq::message_t>& envelope, Request& req) {
-    Flush();  // control requests see every acknowledged observation
+    Flush(/*drain=*/true);  // control requests see every acknowledged observation, run
     switch (req.type) {
       case RequestType::kHealth:
         return SendReply(envelope, EncodeOk(req.seq, HealthJson()));
@@ -795,7 +956,9 @@ struct Server::Impl {
     zmq::pollitem_t items[] = {{router.handle(), 0, ZMQ_POLLIN, 0}};
     while (!stop.load()) {
       long timeout_ms = 200;
-      if (store->in_transaction()) {
+      if (!store->in_transaction() && (model_thread.Backlog() > 0 || HasDone())) {
+        timeout_ms = config.commit_interval_ms;  // results of running models are due
+      } else if (store->in_transaction()) {
         const auto left =
             group_started + std::chrono::milliseconds(config.commit_interval_ms) - Clock::now();
         timeout_ms =
@@ -820,14 +983,22 @@ struct Server::Impl {
           }
           if (!got) break;
           Handle(frames);
-          if (GroupDue() || stop.load()) break;
+          if (GroupDue() || stop.load() || model_thread.Backlog() >= kMaxBacklog) break;
         }
       }
-      if (GroupDue()) Flush();
+      if (HasDone()) {
+        Status st = Collect();
+        if (!st.ok()) FailGroup(st);
+      }
+      if (GroupDue()) Flush(/*drain=*/false);
+      // A full model queue: wait (briefly) for the models instead of reading more requests.
+      if (model_thread.Backlog() >= kMaxBacklog) {
+        model_thread.WaitBelow(kMaxBacklog / 2, std::chrono::milliseconds(1));
+      }
       Housekeeping();
     }
     spdlog::info("rimwatchd stopping: committing {} waiting requests", pending.size());
-    Flush();
+    Flush(/*drain=*/true);
     PublishEvents();
     router.close();
     pub.close();

@@ -205,9 +205,9 @@ Status SnapshotPayload(const Monitor& monitor, json* out) {
   return Status::Ok();
 }
 
-Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
-                 const RowReport& report, const RecordOptions& options,
-                 const std::string& recorded_at, const std::string* payload_text) {
+Status PrepareRecords(std::int64_t model_id, const Monitor& monitor, const RowReport& report,
+                      const RecordOptions& options, RowRecords* out) {
+  *out = RowRecords();
   if (options.tests_every < 1) {
     return Status::InvalidArgument("record: tests_every = " + std::to_string(options.tests_every) +
                                    ": must be >= 1");
@@ -217,39 +217,57 @@ Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
         "record: snapshot_every = " + std::to_string(options.snapshot_every) +
         ": must be >= 1, or 0 for never");
   }
-  if (!store.in_transaction()) {
-    return Status::InvalidArgument("record: RecordRow outside a transaction (call Begin first)");
-  }
   if (!report.status.ok()) return Status::Ok();  // a refused row changed nothing
   if (report.estimated) {
     if (report.row % options.tests_every == 0 || !report.events.empty()) {
-      TestRecord t;
+      TestRecord& t = out->test.emplace();
       t.model_id = model_id;
       t.row = report.row;
       t.period = report.period;
       if (report.has_spectral_radius) t.rho = report.spectral_radius;
       t.rho_se = report.rho_se;
-      t.payload_json = payload_text ? *payload_text : RowPayloadText(report);
-      Status st = store.PutTest(t);
-      if (!st.ok()) return st;
+      t.payload_json = RowPayloadText(report);
     }
     if (options.snapshot_every > 0 && report.row % options.snapshot_every == 0) {
       json snapshot;
       // A window that cannot be summarised (rank deficient, too few rows) has no snapshot; the
       // row's tests record says why ("estimate").
       if (SnapshotPayload(monitor, &snapshot).ok()) {
-        Status st =
-            store.PutSnapshot(SnapshotRecord{model_id, report.row, report.period, snapshot.dump()});
-        if (!st.ok()) return st;
+        out->snapshot = SnapshotRecord{model_id, report.row, report.period, snapshot.dump()};
       }
     }
   }
-  if (!options.alerts) return Status::Ok();
-  for (const AlertEvent& ev : report.events) {
+  if (options.alerts) out->alerts = report.events;
+  return Status::Ok();
+}
+
+Status WriteRecords(Store& store, std::int64_t model_id, const RowRecords& records,
+                    const std::string& recorded_at) {
+  if (!store.in_transaction()) {
+    return Status::InvalidArgument("record: RecordRow outside a transaction (call Begin first)");
+  }
+  if (records.test) {
+    Status st = store.PutTest(*records.test);
+    if (!st.ok()) return st;
+  }
+  if (records.snapshot) {
+    Status st = store.PutSnapshot(*records.snapshot);
+    if (!st.ok()) return st;
+  }
+  for (const AlertEvent& ev : records.alerts) {
     Status st = store.PutAlert(model_id, ev, recorded_at);
     if (!st.ok()) return st;
   }
   return Status::Ok();
+}
+
+Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
+                 const RowReport& report, const RecordOptions& options,
+                 const std::string& recorded_at) {
+  RowRecords records;
+  Status st = PrepareRecords(model_id, monitor, report, options, &records);
+  if (!st.ok()) return st;
+  return WriteRecords(store, model_id, records, recorded_at);
 }
 
 }  // namespace rimwatch::daemon

@@ -7,9 +7,13 @@
 
 #include <array>
 #include <cmath>
+#include <condition_variable>
 #include <cstring>
 #include <limits>
+#include <memory>
+#include <mutex>
 #include <string>
+#include <thread>
 #include <type_traits>
 #include <unordered_map>
 
@@ -26,7 +30,10 @@ struct Migration {
   const char* what;  // for the error message
   const char* sql;
 };
-constexpr std::array<Migration, 0> kMigrations{};
+constexpr std::array<Migration, 1> kMigrations{{
+    {"models.recorded_inputs: how many input rows of a model have their records written",
+     "ALTER TABLE models ADD COLUMN recorded_inputs INTEGER CHECK (recorded_inputs >= 0)"},
+}};
 
 Status SqliteError(sqlite3* db, std::string_view what) {
   std::string msg = "store: ";
@@ -89,6 +96,7 @@ enum Sql : int {
   kInsertModel,
   kDropModel,
   kActiveModels,
+  kSetRecordedInputs,
   kModelIds,
   kInsertTest,
   kInsertSnapshot,
@@ -122,7 +130,9 @@ constexpr const char* kSqlText[kSqlCount] = {
     "SELECT id FROM models WHERE name = ?1 AND dropped_at IS NULL",
     "INSERT INTO models (name, spec_text, added_at) VALUES (?1, ?2, ?3)",
     "UPDATE models SET dropped_at = ?2 WHERE name = ?1 AND dropped_at IS NULL",
-    "SELECT id, name, spec_text, added_at FROM models WHERE dropped_at IS NULL ORDER BY id",
+    "SELECT id, name, spec_text, added_at, recorded_inputs FROM models WHERE dropped_at IS NULL "
+    "ORDER BY id",
+    "UPDATE models SET recorded_inputs = ?2 WHERE id = ?1",
     "SELECT id FROM models ORDER BY id",
     "INSERT INTO tests (model_id, row, period, rho, rho_se, payload) "
     "VALUES (?1, ?2, ?3, ?4, ?5, ?6)",
@@ -154,9 +164,75 @@ std::string KindMismatch(const std::string& name, PeriodKind held, const Period&
 
 }  // namespace
 
+// Copies committed WAL frames into the database file from a second connection on its own
+// thread, so the writer's commits never run a checkpoint (SQLite's automatic one runs inside the
+// commit that crosses 1,000 frames and was a third of rimwatchd's commit path). PASSIVE mode
+// never blocks the writer or readers; the WAL restarts from its beginning once a checkpoint has
+// copied every frame. The writer's commit hook wakes the thread after `kFrames` new frames.
+class Checkpointer {
+ public:
+  static constexpr int kFrames = 1000;  // SQLite's default automatic checkpoint size
+
+  // Opens the second connection; false (nothing started) if that fails.
+  bool Start(const std::string& path, int busy_timeout_ms) {
+    if (sqlite3_open_v2(path.c_str(), &db_, SQLITE_OPEN_READWRITE | SQLITE_OPEN_NOMUTEX, nullptr) !=
+        SQLITE_OK) {
+      sqlite3_close(db_);
+      db_ = nullptr;
+      return false;
+    }
+    sqlite3_busy_timeout(db_, busy_timeout_ms);
+    thread_ = std::thread([this] { Loop(); });
+    return true;
+  }
+  ~Checkpointer() {
+    if (!thread_.joinable()) return;
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      stop_ = true;
+    }
+    wake_.notify_one();
+    thread_.join();
+    sqlite3_close(db_);
+  }
+  // The writer's wal hook: frames = WAL frames after its commit.
+  static int Hook(void* self, sqlite3*, const char*, int frames) {
+    auto* c = static_cast<Checkpointer*>(self);
+    if (frames >= kFrames) {
+      {
+        std::lock_guard<std::mutex> lock(c->mutex_);
+        c->due_ = true;
+      }
+      c->wake_.notify_one();
+    }
+    return SQLITE_OK;
+  }
+
+ private:
+  void Loop() {
+    std::unique_lock<std::mutex> lock(mutex_);
+    for (;;) {
+      wake_.wait(lock, [this] { return stop_ || due_; });
+      if (stop_) return;
+      due_ = false;
+      lock.unlock();
+      sqlite3_wal_checkpoint_v2(db_, "main", SQLITE_CHECKPOINT_PASSIVE, nullptr, nullptr);
+      lock.lock();
+    }
+  }
+
+  sqlite3* db_ = nullptr;
+  std::mutex mutex_;
+  std::condition_variable wake_;
+  bool due_ = false;
+  bool stop_ = false;
+  std::thread thread_;
+};
+
 struct Store::Impl {
   StoreOptions options;
   sqlite3* db = nullptr;
+  std::unique_ptr<Checkpointer> checkpointer;  // writable files with background_checkpoint
   int version = 0;
   bool in_transaction = false;
   std::array<sqlite3_stmt*, kSqlCount> sql{};
@@ -168,6 +244,8 @@ struct Store::Impl {
 
   ~Impl() {
     if (in_transaction && db != nullptr) sqlite3_exec(db, "ROLLBACK", nullptr, nullptr, nullptr);
+    if (checkpointer) sqlite3_wal_hook(db, nullptr, nullptr);
+    checkpointer.reset();  // its connection closes first; the writer's close checkpoints the rest
     for (sqlite3_stmt* s : sql) sqlite3_finalize(s);
     sqlite3_close(db);
   }
@@ -435,6 +513,14 @@ Status Store::Open(const StoreOptions& options, std::unique_ptr<Store>* out) {
   if (st.ok()) st = impl->CreateOrMigrate();
   if (st.ok()) st = impl->Prepare();
   if (!st.ok()) return st;
+  if (!options.read_only && options.background_checkpoint) {
+    auto c = std::make_unique<Checkpointer>();
+    if (c->Start(options.path, options.busy_timeout_ms)) {
+      // Replaces SQLite's automatic checkpoint (itself a wal hook) on the writer.
+      sqlite3_wal_hook(impl->db, &Checkpointer::Hook, c.get());
+      impl->checkpointer = std::move(c);
+    }
+  }
   out->reset(new Store(std::move(impl)));
   return Status::Ok();
 }
@@ -673,12 +759,36 @@ Status Store::ActiveModels(std::vector<StoredModel>* out) {
   StatementUse q(impl_->sql[kActiveModels]);
   int rc = 0;
   while ((rc = sqlite3_step(q.get())) == SQLITE_ROW) {
-    out->push_back(StoredModel{sqlite3_column_int64(q.get(), 0), ColumnText(q.get(), 1),
-                               ColumnText(q.get(), 2), ColumnText(q.get(), 3)});
+    StoredModel m{sqlite3_column_int64(q.get(), 0), ColumnText(q.get(), 1), ColumnText(q.get(), 2),
+                  ColumnText(q.get(), 3), std::nullopt};
+    if (sqlite3_column_type(q.get(), 4) != SQLITE_NULL) {
+      m.recorded_inputs = sqlite3_column_int64(q.get(), 4);
+    }
+    out->push_back(std::move(m));
   }
   if (rc != SQLITE_DONE) {
     out->clear();
     return SqliteError(impl_->db, "list models");
+  }
+  return Status::Ok();
+}
+
+Status Store::SetRecordedInputs(std::int64_t model_id, std::int64_t inputs) {
+  Status st = impl_->RequireWrite("SetRecordedInputs");
+  if (!st.ok()) return st;
+  if (inputs < 0) {
+    return Status::InvalidArgument("store: SetRecordedInputs: inputs = " + std::to_string(inputs) +
+                                   ": must be >= 0");
+  }
+  StatementUse q(impl_->sql[kSetRecordedInputs]);
+  sqlite3_bind_int64(q.get(), 1, model_id);
+  sqlite3_bind_int64(q.get(), 2, inputs);
+  st = impl_->StepDone(
+      q.get(), [&] { return "record the input cursor of model " + std::to_string(model_id); });
+  if (!st.ok()) return st;
+  if (sqlite3_changes(impl_->db) != 1) {
+    return Status::InvalidArgument("store: SetRecordedInputs: no model with id " +
+                                   std::to_string(model_id));
   }
   return Status::Ok();
 }

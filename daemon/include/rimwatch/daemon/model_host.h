@@ -18,7 +18,15 @@
 // A row the Monitor refuses (e.g. logdiff of a non-positive value) leaves its state unchanged
 // in live running and in a replay alike; the host reports it in RowOutcome::refused.
 //
-// Thread safety: none; the daemon's poll loop owns every host.
+// Two sides. Offer() assembles input rows (the period bookkeeping, fingerprints, last period)
+// and hands complete ones back as InputRows; Run() feeds one to the Monitor (row_keys, the last
+// report). rimwatchd calls Offer on its poll thread and Run on its model thread, in the order
+// Offer produced the rows.
+//
+// Thread safety: none inside; the caller keeps the two sides apart: Run, monitor(), rows(),
+// last_report() and RowPeriod() belong to whichever thread runs the rows, and the rest of the
+// host may be touched by another thread only while no Run of it is in progress or queued
+// (rimwatchd drains its model thread first). Rebuild() uses both sides.
 #pragma once
 
 #include <Eigen/Core>
@@ -44,8 +52,19 @@ struct RowOutcome {
   std::vector<std::string> refused;  // "period 2026-03-31: <reason>"
 };
 
+// One complete period of a model's series, in variable order: the Monitor's next input row.
+struct InputRow {
+  std::int64_t key = 0;  // period key
+  std::string text;      // period label
+  Eigen::VectorXd raw;
+};
+
 struct RebuildOptions {
   bool record = true;  // write tests / snapshots for changed rows and alert changes to the store
+  // Restart mode: the store already holds the records of the first *record_from_input inputs
+  // (StoredModel::recorded_inputs); with `record`, the inputs from there on are recorded with
+  // their alerts, which are returned as the alert changes (nothing else is compared).
+  std::optional<std::int64_t> record_from_input;
   RecordOptions record_options;
   std::string recorded_at;  // wall-clock text for alert records
   std::string reason;       // e.g. "a revision of b for 2026-03-31"; used in alert-change messages
@@ -73,9 +92,17 @@ class ModelHost {
   // The latest estimated row's report (tests, readings), if any since start or rebuild.
   const std::optional<RowReport>& last_report() const { return last_report_; }
 
-  // One stored observation of variable `var` (its outcome from Store::PutObservation). Completed
-  // rows after the last processed period run at once; their results are appended to *out.
-  void Offer(int var, const Period& period, double value, PutOutcome outcome, RowOutcome* out);
+  // Input rows admitted so far (each is Run, or queued to be).
+  std::int64_t inputs() const { return static_cast<std::int64_t>(fingerprints_.size()); }
+
+  // One stored observation of variable `var` (its outcome from Store::PutObservation). A period
+  // after the last admitted one that is now complete is admitted and appended to *ready, to be
+  // passed to Run in that order.
+  void Offer(int var, const Period& period, double value, PutOutcome outcome,
+             std::vector<InputRow>* ready);
+  // Runs one admitted input row through the Monitor; its report (estimated rows) or refusal is
+  // appended to *out.
+  void Run(const InputRow& row, RowOutcome* out);
   // True when an observation touched history at or before the last processed period.
   bool needs_rebuild() const { return needs_rebuild_; }
 
@@ -92,8 +119,7 @@ class ModelHost {
     std::vector<std::optional<double>> values;
     int filled = 0;
   };
-  void RunRow(std::int64_t key, const std::string& text, const Eigen::VectorXd& raw,
-              RowOutcome* out);
+  void Admit(const InputRow& row);
   static std::uint64_t Fingerprint(std::int64_t key, const Eigen::VectorXd& raw);
 
   std::int64_t model_id_ = 0;

@@ -16,7 +16,9 @@
 
 #include <cstdint>
 #include <nlohmann/json.hpp>
+#include <optional>
 #include <string>
+#include <vector>
 
 #include "rimwatch/daemon/store.h"
 #include "rimwatch/engine/monitor.h"
@@ -49,12 +51,25 @@ std::string RowPayloadText(const RowReport& report);
 //  "rho_se":..|null,"regressors":[..],"variables":[..]} from Monitor::Summary.
 Status SnapshotPayload(const Monitor& monitor, nlohmann::ordered_json* out);
 
-// Writes the records of one row (see above); a refused row (report.status not OK) writes
-// nothing. kInvalidArgument outside a transaction or for options out of range; store errors as
-// they come. payload_text: RowPayloadText(report) when the caller already built it; nullptr
-// builds it here if needed.
+// The records of one row, built but not yet written.
+struct RowRecords {
+  std::optional<TestRecord> test;
+  std::optional<SnapshotRecord> snapshot;
+  std::vector<AlertEvent> alerts;
+};
+
+// Builds the records of one row (see above) from the Monitor right after it ran that row (the
+// snapshot reads the Monitor's current estimate); a refused row (report.status not OK) has none.
+// No store access: rimwatchd runs this beside the model, off the thread that owns the store.
+// kInvalidArgument for options out of range.
+Status PrepareRecords(std::int64_t model_id, const Monitor& monitor, const RowReport& report,
+                      const RecordOptions& options, RowRecords* out);
+// Writes them. kInvalidArgument outside a transaction; store errors as they come.
+Status WriteRecords(Store& store, std::int64_t model_id, const RowRecords& records,
+                    const std::string& recorded_at);
+// PrepareRecords, then WriteRecords (options are checked first, then the transaction).
 Status RecordRow(Store& store, std::int64_t model_id, const Monitor& monitor,
                  const RowReport& report, const RecordOptions& options,
-                 const std::string& recorded_at, const std::string* payload_text = nullptr);
+                 const std::string& recorded_at);
 
 }  // namespace rimwatch::daemon

@@ -23,7 +23,8 @@
 //
 // Errors: Status code kIoError with the SQLite message; kInvalidArgument for a rule broken by
 // the caller (unknown series id, period of the wrong kind, a model name already active).
-// Thread safety: none; one owner (the daemon's poll loop, or one replay).
+// Thread safety: none; one owner (the daemon's poll loop, or one replay). The background
+// checkpointer (StoreOptions) uses its own connection and touches nothing else.
 #pragma once
 
 #include <cstdint>
@@ -43,6 +44,9 @@ struct StoreOptions {
   bool synchronous_full = true;  // PRAGMA synchronous = FULL (ack = on disk); false: NORMAL
   int busy_timeout_ms = 5000;    // wait this long for a lock held by another process (a reader)
   bool read_only = false;        // open an existing file for reading (report); no migration
+  // Writable files: WAL checkpoints run on a background thread with a second connection instead
+  // of inside the commit that crosses 1,000 WAL frames (the writer's commits stay short).
+  bool background_checkpoint = true;
 };
 
 enum class PutOutcome { kNew, kDuplicate, kRevision, kLate };
@@ -66,6 +70,10 @@ struct StoredModel {
   std::string name;
   std::string spec_text;  // the TOML as given
   std::string added_at;   // ISO 8601 UTC wall-clock time (daemon side; never seen by the engine)
+  // How many input rows (complete periods, in period order) have their records (tests,
+  // snapshots, alerts) in this file; empty when never set (a model written before the column
+  // existed, or by `rimwatch replay --db`, records every row as it runs).
+  std::optional<std::int64_t> recorded_inputs;
 };
 
 // One row per model row at the tests cadence: the statistics a report draws.
@@ -129,6 +137,9 @@ class Store {
                   std::int64_t* model_id);
   Status DropModel(const std::string& name, const std::string& at);
   Status ActiveModels(std::vector<StoredModel>* out);
+  // Sets StoredModel::recorded_inputs (>= 0) of model_id, in the transaction that writes those
+  // records. kInvalidArgument for a negative count or an unknown id.
+  Status SetRecordedInputs(std::int64_t model_id, std::int64_t inputs);
 
   // Records written as the models run.
   Status PutTest(const TestRecord& record);
