@@ -65,9 +65,11 @@ struct HostState {
 // What the model thread made of one input row, for the poll thread to record and publish.
 struct RowDone {
   HostState* state = nullptr;
-  std::int64_t inputs = 0;  // the host's input count once this row ran
-  RowOutcome outcome;
-  std::vector<RowRecords> records;      // one per outcome.reports
+  std::int64_t inputs = 0;              // the host's input count once this row ran
+  int reports = 0;                      // estimated rows (0 or 1)
+  std::vector<AlertEvent> events;       // their alert transitions
+  std::vector<std::string> refused;     // RowOutcome::refused
+  std::vector<RowRecords> records;      // one per report
   std::vector<std::string> est_bodies;  // est.<model> events of these rows
   Status status;                        // PrepareRecords' failure, if any
 };
@@ -371,8 +373,13 @@ struct Server::Impl {
     d.state = state;
     d.inputs = inputs;
     ModelHost& h = *state->host;
-    h.Run(row, &d.outcome);
-    for (const RowReport& report : d.outcome.reports) {
+    // The report stays on this thread (it is freed where it was allocated); what the poll thread
+    // needs is moved into d.
+    RowOutcome outcome;
+    h.Run(row, &outcome);
+    d.reports = static_cast<int>(outcome.reports.size());
+    d.refused = std::move(outcome.refused);
+    for (RowReport& report : outcome.reports) {
       RowRecords records;
       Status st = PrepareRecords(h.id(), h.monitor(), report, config.records, &records);
       if (!st.ok()) d.status = st;
@@ -382,6 +389,7 @@ struct Server::Impl {
         AppendRowPayloadText(report, &h.name(), &body);
         d.est_bodies.push_back(std::move(body));
       }
+      for (AlertEvent& e : report.events) d.events.push_back(std::move(e));
     }
     std::lock_guard<std::mutex> lock(done_mutex);
     done.push_back(std::move(d));
@@ -422,16 +430,16 @@ struct Server::Impl {
       HostState& state = *d.state;
       ModelHost& h = *state.host;
       if (!d.status.ok()) return d.status;
-      for (std::size_t i = 0; i < d.outcome.reports.size(); ++i) {
-        ++rows_total;
-        st = WriteRecords(*store, h.id(), d.records[i], now);
+      rows_total += d.reports;
+      for (const RowRecords& records : d.records) {
+        st = WriteRecords(*store, h.id(), records, now);
         if (!st.ok()) return st;
-        for (const AlertEvent& e : d.outcome.reports[i].events) QueueAlert(e);
       }
+      for (const AlertEvent& e : d.events) QueueAlert(e);
       for (std::string& body : d.est_bodies) {
         events.emplace_back(EstimateTopic(h.name()), std::move(body));
       }
-      for (const std::string& why : d.outcome.refused) {
+      for (const std::string& why : d.refused) {
         ++rows_refused;
         json body = {{"code", "row_refused"}, {"model", h.name()}, {"message", why}, {"count", 1}};
         events.emplace_back(kRejectTopic, body.dump());

@@ -88,7 +88,8 @@ struct RowReport {
   std::vector<RestrictionRow> restrictions;  // fresh on robust rows, else empty
   // On estimated rows: one entry per monitor, in MonitorNames() order, with the reading that
   // monitor produced on this row (armed = false while it trains or when its statistic is
-  // unavailable; held readings, e.g. of block-wise tests, are repeated). Empty otherwise.
+  // unavailable; held readings, e.g. of block-wise tests, are repeated). Empty otherwise. The
+  // samples carry the numbers; their explanation is left empty (events carry the text).
   std::vector<MonitorSample> readings;
   std::vector<AlertEvent> events;
 };
