@@ -706,6 +706,12 @@ void RestrictionMonitor::FillAlarm(const ScanValue& value, RestrictionReading* r
   a.critical = thresholds_.critical;
   a.clear = thresholds_.warn;
   reading->change_window = value.window;
+  // The full text only where an alert can be raised (armed, at or above warn: alert.cc); below
+  // it a short status line, so an ordinary row does not format a paragraph.
+  if (!value.available || !(value.statistic >= thresholds_.warn)) {
+    a.explanation = "Restriction '" + restriction_.name + "': change scan below warn";
+    return;
+  }
   std::ostringstream text;
   text << "Restriction '" << restriction_.name << "' (" << restriction_.r_matrix.rows()
        << (restriction_.r_matrix.rows() == 1 ? " row" : " rows")
