@@ -486,12 +486,13 @@ int Run::Go() {
         std::to_string(nowcast.revisions) + " of them revisions)" + pace + ":");
     code = Feed(dir / "nowcast_releases.csv", true, "nowcast");
   }
-  // Events go out right after the commit that acknowledged the last request; give the last of
-  // them time to arrive.
+  // Acks come once observations are committed; a state request is answered after the models
+  // have run every acknowledged row and their events are out. Give the last of them time to
+  // arrive.
+  const json desk_state = State("desk"), nowcast_state = State("nowcast");
   std::this_thread::sleep_for(std::chrono::milliseconds(300));
   printer.Finish();
   const double fed_s = std::chrono::duration<double>(Clock::now() - started).count();
-  const json desk_state = State("desk"), nowcast_state = State("nowcast");
   const int daemon_code = daemon.Stop(std::chrono::seconds(60));
   if (code != kExitOk) {
     err << "rimwatch demo: a feed did not complete; see " << (dir / "rimwatchd.log") << "\n";

@@ -263,7 +263,7 @@ void BareServer(const std::string& endpoint, const std::string& db, std::atomic<
 pid_t StartDaemon(const std::string& bin_dir, const fs::path& dir, int port) {
   std::ofstream(dir / "rimwatchd.toml")
       << "[sockets]\ningest = \"tcp://127.0.0.1:" << port
-      << "\"\nevents = \"tcp://127.0.0.1:" << port + 1 << "\"\n[events]\nest_every = 0\n";
+      << "\"\nevents = \"tcp://127.0.0.1:" << port + 1 << "\"\n";  // defaults otherwise
   const std::string bin = bin_dir + "/rimwatchd";
   std::vector<std::string> args = {bin,
                                    "--data-dir",
@@ -348,7 +348,8 @@ int main(int argc, char** argv) {
   const int port = 27000 + static_cast<int>(getpid() % 2000) * 4;
   std::printf(
       "rimwatchd bench: %d row messages (3 observations each), %d in flight, "
-      "synchronous FULL, commit interval 5 ms, robust statistics every %d rows\n",
+      "synchronous FULL, commit interval 5 ms, robust statistics every %d rows, est events every "
+      "row (the default), one tests record per row\n",
       rows, window, every);
 
   // Bare baseline.

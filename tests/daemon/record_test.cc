@@ -115,6 +115,7 @@ TEST(RecordTest, CadencesAlertsAndSnapshotsMatchTheMonitor) {
       json with_model = tree;
       with_model["model"] = name;
       ASSERT_EQ(json::parse(event), with_model) << event;
+      ASSERT_EQ(EventBody(text, name), event);
       if (report.row % 5 == 0 || !report.events.empty()) {
         want.test_rows.insert(report.row);
         if (report.has_spectral_radius) {

@@ -171,6 +171,9 @@ TEST(Rimwatchd, LiveStateAndEventsEqualReplay) {
   const Scenario s = MakeScenario(1400, 7);
   const auto acked = FeedRows(client, s, 0, s.rows.size());
   EXPECT_EQ(acked.size(), s.rows.size());
+  // Acks come once observations are committed; the models may still be running the last rows.
+  // A control request is answered only after they have (and their events are published).
+  ASSERT_TRUE(client.Call({{"type", "health"}})["ok"].get<bool>());
   const std::vector<json> live = DrainAlerts(sub);
   const json state = client.Call({{"type", "state"}, {"model", "brk"}});
   Dump("reply.state", state);

@@ -383,12 +383,16 @@ struct Server::Impl {
       RowRecords records;
       Status st = PrepareRecords(h.id(), h.monitor(), report, config.records, &records);
       if (!st.ok()) d.status = st;
-      d.records.push_back(std::move(records));
       if (config.est_every > 0 && (++state->est_counter % config.est_every) == 0) {
-        std::string body;
-        AppendRowPayloadText(report, &h.name(), &body);
-        d.est_bodies.push_back(std::move(body));
+        if (records.test) {  // the tests record's payload, with the model added
+          d.est_bodies.push_back(EventBody(records.test->payload_json, h.name()));
+        } else {
+          std::string body;
+          AppendRowPayloadText(report, &h.name(), &body);
+          d.est_bodies.push_back(std::move(body));
+        }
       }
+      d.records.push_back(std::move(records));
       for (AlertEvent& e : report.events) d.events.push_back(std::move(e));
     }
     std::lock_guard<std::mutex> lock(done_mutex);

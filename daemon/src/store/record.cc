@@ -148,6 +148,17 @@ void AppendRowPayloadText(const RowReport& report, const std::string* model, std
   w.Raw("}");
 }
 
+std::string EventBody(const std::string& payload_text, const std::string& model) {
+  std::string out;
+  out.reserve(payload_text.size() + model.size() + 16);
+  out.append(payload_text, 0, payload_text.empty() ? 0 : payload_text.size() - 1);  // drop '}'
+  TextWriter w(&out);
+  w.Raw(",\"model\":");
+  w.String(model);
+  w.Raw("}");
+  return out;
+}
+
 std::string RowPayloadText(const RowReport& report) {
   std::string out;
   out.reserve(512);

@@ -46,6 +46,9 @@ nlohmann::ordered_json RowPayload(const RowReport& report);
 // "model" (the event body). Appends to *out.
 void AppendRowPayloadText(const RowReport& report, const std::string* model, std::string* out);
 std::string RowPayloadText(const RowReport& report);
+// RowPayloadText's text with the last member "model" added: the same as AppendRowPayloadText
+// with a model, from a payload already built. REQUIRES: payload_text is RowPayloadText's.
+std::string EventBody(const std::string& payload_text, const std::string& model);
 
 // {"coefficients":[[..]],"se":[[..]],"sigma":[[..]],"eigenvalues":[[re,im],..],"rho":..,
 //  "rho_se":..|null,"regressors":[..],"variables":[..]} from Monitor::Summary.
