@@ -118,8 +118,8 @@ struct Server::Impl {
   Clock::time_point last_housekeeping = Clock::now();
 
   // Model updates run on the model thread; their results wait in `done` for the poll thread.
-  // Observations are acknowledged once committed, before their rows have run (see
-  // DEVELOPERS.md, "rimwatchd's two threads"); at most kMaxBacklog rows wait for the models
+  // Observations are acknowledged once committed, before their rows have run (DEVELOPERS.md,
+  // "The daemon: invariants"); at most kMaxBacklog rows wait for the models
   // before the poll thread stops reading requests.
   static constexpr std::size_t kMaxBacklog = 4096;
   std::mutex done_mutex;
@@ -705,17 +705,16 @@ struct Server::Impl {
   void CheckStale() {
     if (config.stale_after_s <= 0) return;
     const auto wall = Clock::now();
-    const bool any = std::any_of(hosts.begin(), hosts.end(), [&](const auto& s) {
-      return !s->stale &&
-             std::chrono::duration<double>(wall - s->last_data).count() >= config.stale_after_s;
-    });
-    if (!any) return;
-    Status drained = Drain();  // the stale events carry each host's row count
-    if (!drained.ok()) return FailGroup(drained);
+    bool drained = false;
     for (auto& state : hosts) {
       if (state->stale) continue;
       const double silent = std::chrono::duration<double>(wall - state->last_data).count();
       if (silent < config.stale_after_s) continue;
+      if (!drained) {  // the stale events carry each host's row count
+        Status st = Drain();
+        if (!st.ok()) return FailGroup(st);
+        drained = true;
+      }
       AlertEvent e;
       e.model = state->host->name();
       e.monitor = "data.stale";
