@@ -207,7 +207,8 @@ Eigen::MatrixXd ScoreCovariance(const Eigen::Ref<const Eigen::MatrixXd>& x,
 }  // namespace
 
 Status NyblomHansenStatistic(const Eigen::Ref<const Eigen::MatrixXd>& x,
-                             const Eigen::Ref<const Eigen::MatrixXd>& e, NyblomResult* out) {
+                             const Eigen::Ref<const Eigen::MatrixXd>& e, NyblomResult* out,
+                             NyblomPValues p_values) {
   const Eigen::Index k = x.rows(), t_rows = x.cols();
   const auto n = static_cast<int>(e.rows());
   if (e.cols() != t_rows || k < 1 || n < 1) {
@@ -230,23 +231,24 @@ Status NyblomHansenStatistic(const Eigen::Ref<const Eigen::MatrixXd>& x,
         "Nyblom-Hansen: the score covariance V is singular (a regressor without variation, or "
         "an equation fitted exactly)");
   }
+  const bool with_p = p_values == NyblomPValues::kCompute;
   r.joint = Statistic(x, e, 0, n, l);
-  r.joint_p_value = NyblomSurvival(r.joint, nk);
+  r.joint_p_value = with_p ? NyblomSurvival(r.joint, nk) : std::nan("");
   r.equation.resize(n);
-  r.equation_p_value.resize(n);
+  if (with_p) r.equation_p_value.resize(n);
   for (int i = 0; i < n; ++i) {
     if (!Factor(ScoreCovariance(x, e, i, 1), &l)) {
       return Status::RankDeficient("Nyblom-Hansen: the score covariance of equation " +
                                    std::to_string(i + 1) + " is singular");
     }
     r.equation[i] = Statistic(x, e, i, 1, l);
-    r.equation_p_value[i] = NyblomSurvival(r.equation[i], static_cast<int>(k));
+    if (with_p) r.equation_p_value[i] = NyblomSurvival(r.equation[i], static_cast<int>(k));
   }
   *out = std::move(r);
   return Status::Ok();
 }
 
-Status NyblomHansenTest(const VarEstimator& window, NyblomResult* out) {
+Status NyblomHansenTest(const VarEstimator& window, NyblomResult* out, NyblomPValues p_values) {
   const WindowOptions& w = window.spec().window;
   if (w.kind == WindowKind::kForgetting && w.lambda < 1.0) {
     return Status::Unavailable(
@@ -264,7 +266,7 @@ Status NyblomHansenTest(const VarEstimator& window, NyblomResult* out) {
   const Eigen::MatrixXd z = buf.Ordered();
   const int k = window.k();
   const Eigen::MatrixXd e = z.bottomRows(window.n()) - phi * z.topRows(k);
-  return NyblomHansenStatistic(z.topRows(k), e, out);
+  return NyblomHansenStatistic(z.topRows(k), e, out, p_values);
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -421,9 +423,8 @@ void ConstancyMonitor::Evaluate(const VarEstimator& tracking, std::int64_t j, Co
   r->evaluation = j;
   r->within_horizon = j <= options_.Evaluations();
   if (options_.test == ConstancyMonitorOptions::Test::kNyblomHansen) {
-    r->status = NyblomHansenTest(tracking, &r->nyblom);
+    r->status = NyblomHansenTest(tracking, &r->nyblom, NyblomPValues::kSkip);
     r->alarm.statistic = r->nyblom.joint;
-    r->p_value = r->nyblom.joint_p_value;
     return;
   }
   if (!has_reference_) {
@@ -441,7 +442,6 @@ void ConstancyMonitor::Evaluate(const VarEstimator& tracking, std::int64_t j, Co
                                  std::min(reference_dof_, recent.info().dof), &r->equality);
   }
   r->alarm.statistic = r->equality.statistic;
-  r->p_value = r->equality.f_p_value;
 }
 
 void ConstancyMonitor::Fill(ConstancyReading* r) const {
@@ -458,9 +458,19 @@ void ConstancyMonitor::Fill(ConstancyReading* r) const {
     a.explanation = text.str();
     return;
   }
+  // The full text only where an alert can be raised (armed, at or above warn: alert.cc).
+  if (!(a.statistic >= warn_)) {
+    a.explanation = std::string("Parameter constancy (") + ConstancyTestName(options_.test) +
+                    "): below warn at the latest evaluation.";
+    return;
+  }
   if (options_.test == ConstancyMonitorOptions::Test::kNyblomHansen) {
+    // Every equation has k coefficients, so the largest statistic has the smallest p-value:
+    // only that equation's p-value is computed.
     int worst = 0;
-    r->nyblom.equation_p_value.minCoeff(&worst);
+    r->nyblom.equation.maxCoeff(&worst);
+    r->nyblom.equation_p_value = Eigen::VectorXd::Constant(r->nyblom.equation.size(), std::nan(""));
+    r->nyblom.equation_p_value[worst] = NyblomSurvival(r->nyblom.equation[worst], spec_.k());
     text << "The VAR coefficients look unstable over the last " << r->nyblom.rows
          << " rows: the Nyblom-Hansen statistic is " << Fmt(a.statistic) << " (critical "
          << Fmt(critical_) << " at level " << Fmt(options_.false_alarm / e, 3) << ", split over "

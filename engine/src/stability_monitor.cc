@@ -33,6 +33,12 @@ MonitorReading StabilityMonitor::Observe(double rho, std::optional<double> se, b
   if (se && *se > 0.0) r.critical = std::min(r.critical, 1.0 - 1.645 * *se);
   r.critical = std::max(r.critical, r.warn);  // a huge SE must not make warn unreachable
   r.clear = spec_.warn;
+  // The full text only where an alert can be raised (armed, at or above warn: alert.cc); an
+  // ordinary row formats nothing.
+  if (!armed || !(rho >= r.warn)) {
+    r.explanation = "Spectral radius below warn.";
+    return r;
+  }
   char buf[320];
   if (se) {
     std::snprintf(buf, sizeof buf,

@@ -3,6 +3,7 @@
 // SQLite inserts through the Store (group commit, synchronous FULL), no engine.
 //
 //   daemon_bench --bin-dir build/bin [--rows 60000] [--window 2000] [--every 100] [--paced 30000]
+//                [--cases bare,one,many,paced]
 //
 // Prints, for the bare baseline, one (3,2) model, and 100 (3,2) models: acked observations per
 // second (3 observations per row message), the rate at which the models have also run them
@@ -22,6 +23,7 @@
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <limits>
 #include <map>
 #include <nlohmann/json.hpp>
 #include <random>
@@ -260,10 +262,12 @@ void BareServer(const std::string& endpoint, const std::string& db, std::atomic<
   }
 }
 
-pid_t StartDaemon(const std::string& bin_dir, const fs::path& dir, int port) {
+pid_t StartDaemon(const std::string& bin_dir, const fs::path& dir, int port,
+                  const std::string& extra_config) {
   std::ofstream(dir / "rimwatchd.toml")
       << "[sockets]\ningest = \"tcp://127.0.0.1:" << port
-      << "\"\nevents = \"tcp://127.0.0.1:" << port + 1 << "\"\n";  // defaults otherwise
+      << "\"\nevents = \"tcp://127.0.0.1:" << port + 1 << "\"\n"  // defaults otherwise
+      << extra_config;
   const std::string bin = bin_dir + "/rimwatchd";
   std::vector<std::string> args = {bin,
                                    "--data-dir",
@@ -334,6 +338,8 @@ int main(int argc, char** argv) {
   std::string bin_dir = "build/bin";
   int rows = 60000, window = 2000, every = 100;
   double paced = 30000;
+  std::string cases = "bare,one,many,paced";  // which runs (for profiling one of them)
+  std::string extra_config;
   for (int i = 1; i + 1 < argc; i += 2) {
     const std::string k = argv[i];
     if (k == "--bin-dir") bin_dir = argv[i + 1];
@@ -341,6 +347,11 @@ int main(int argc, char** argv) {
     if (k == "--window") window = std::atoi(argv[i + 1]);
     if (k == "--every") every = std::atoi(argv[i + 1]);
     if (k == "--paced") paced = std::atof(argv[i + 1]);
+    if (k == "--cases") cases = argv[i + 1];
+    if (k == "--config") {  // TOML tables appended to rimwatchd's config (not the default run)
+      std::ifstream in(argv[i + 1]);
+      extra_config.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
+    }
   }
   signal(SIGPIPE, SIG_IGN);
   char tmpl[] = "/tmp/rimwatch-bench.XXXXXX";
@@ -352,9 +363,13 @@ int main(int argc, char** argv) {
       "row (the default), one tests record per row\n",
       rows, window, every);
 
+  const auto wanted = [&](const std::string& name) {
+    return ("," + cases + ",").find("," + name + ",") != std::string::npos;
+  };
   // Bare baseline.
   Figures bare;
-  {
+  bare.obs_per_s = std::numeric_limits<double>::quiet_NaN();
+  if (wanted("bare")) {
     std::atomic<bool> stop{false}, ready{false};
     const std::string ep = "tcp://127.0.0.1:" + std::to_string(port + 2);
     std::thread server(BareServer, ep, (dir / "bare.sqlite").string(), &stop, &ready);
@@ -362,8 +377,8 @@ int main(int argc, char** argv) {
     bare = Feed(ep, "", 1, Simulate(rows, rows, 1), window);
     stop.store(true);
     server.join();
+    Print("bare (decode + store)", bare, bare.obs_per_s);
   }
-  Print("bare (decode + store)", bare, bare.obs_per_s);
 
   // Saturated runs (up to `window` requests in flight, as fast as acked), then one model paced at
   // `rate` observations per second: latency at a steady load below capacity (at saturation the ack
@@ -372,16 +387,18 @@ int main(int argc, char** argv) {
     int models;
     double rate;
     const char* label;
+    const char* name;
   };
   int run_index = 0;
   for (const Run& run :
-       {Run{1, 0, "rimwatchd, 1 model (3,2)"}, Run{100, 0, "rimwatchd, 100 models"},
-        Run{1, paced, "rimwatchd, 1 model, paced"}}) {
+       {Run{1, 0, "rimwatchd, 1 model (3,2)", "one"}, Run{100, 0, "rimwatchd, 100 models", "many"},
+        Run{1, paced, "rimwatchd, 1 model, paced", "paced"}}) {
+    if (!wanted(run.name)) continue;
     const int models = run.models;
     const fs::path d = dir / ("d" + std::to_string(run_index++));
     fs::create_directories(d);
     const int p = port + 4 * run_index;
-    const pid_t pid = StartDaemon(bin_dir, d, p);
+    const pid_t pid = StartDaemon(bin_dir, d, p, extra_config);
     const std::string ingest = "tcp://127.0.0.1:" + std::to_string(p);
     const std::string events = "tcp://127.0.0.1:" + std::to_string(p + 1);
     WaitHealthy(ingest);

@@ -65,20 +65,27 @@ struct NyblomResult {
   std::int64_t rows = 0;       // T
   int parameters = 0;          // n k (joint)
   double joint = 0.0;          // L over all n k coefficients
-  double joint_p_value = 1.0;  // NyblomSurvival(joint, n k)
+  double joint_p_value = 1.0;  // NyblomSurvival(joint, n k); NaN unless p-values were asked for
   Eigen::VectorXd equation;    // n values: L over each equation's k coefficients
-  Eigen::VectorXd equation_p_value;
+  Eigen::VectorXd equation_p_value;  // NyblomSurvival(equation[i], k); empty unless asked for
 };
+
+// Whether NyblomHansenStatistic / NyblomHansenTest also compute the p-values (each a numerical
+// integral, NyblomSurvival, far dearer than the statistics): a monitor that compares the
+// statistic with precomputed critical values needs them only for an alert's text.
+enum class NyblomPValues { kCompute, kSkip };
 
 // From regressors x (k x T) and least-squares residuals e (n x T) of the same T rows, oldest
 // first. Errors: kInvalidArgument on shape mismatch; kNonFinite; kNotEnoughRows when T <= n k;
 // kRankDeficient when V (or a V_i) is singular to working accuracy.
 Status NyblomHansenStatistic(const Eigen::Ref<const Eigen::MatrixXd>& x,
-                             const Eigen::Ref<const Eigen::MatrixXd>& e, NyblomResult* out);
+                             const Eigen::Ref<const Eigen::MatrixXd>& e, NyblomResult* out,
+                             NyblomPValues p_values = NyblomPValues::kCompute);
 // On the window of an estimator: its buffered rows and residuals at its current estimate.
 // Errors: the estimator's rank status; kUnavailable for a forgetting window with lambda < 1
 // (unequal weights) or when the buffer holds fewer rows than the window (truncated); as above.
-Status NyblomHansenTest(const VarEstimator& window, NyblomResult* out);
+Status NyblomHansenTest(const VarEstimator& window, NyblomResult* out,
+                        NyblomPValues p_values = NyblomPValues::kCompute);
 
 struct EqualityResult {
   double statistic = 0.0;    // W
@@ -163,9 +170,12 @@ struct ConstancyReading {
   Status status;                // of the latest evaluation
   std::int64_t evaluation = 0;  // j of the latest evaluation (0: none yet)
   bool within_horizon = false;  // j <= E
-  double p_value = 1.0;         // of the latest evaluation (the F form for the equality test)
-  NyblomResult nyblom;          // kNyblomHansen: the latest evaluation
-  EqualityResult equality;      // kReferenceEquality: the latest evaluation
+  // kNyblomHansen: the latest evaluation. Its p-values are computed only when the statistic
+  // reaches warn (the alert text names the equation that moved most, with its p-value): the
+  // joint p-value stays NaN, and equation_p_value holds that one equation's entry (the others
+  // NaN), or is empty below warn.
+  NyblomResult nyblom;
+  EqualityResult equality;  // kReferenceEquality: the latest evaluation
 };
 
 class ConstancyMonitor {
