@@ -1,9 +1,24 @@
 #include "rimwatch/engine/augmented_factor.h"
 
 #include <Eigen/Dense>
+#include <algorithm>
 #include <cmath>
 
 namespace rimwatch {
+namespace {
+
+// sqrt(a^2 + b^2). The plain formula where squaring the larger magnitude can neither overflow nor
+// underflow (it lies in [1e-150, 1e150]; the smaller one may underflow harmlessly): a relative
+// error of about one rounding, as for any Givens rotation (Golub & Van Loan, Matrix Computations,
+// 4th ed. 2013, Sec. 5.1.8). Elsewhere std::hypot, which scales. glibc's hypot is several times
+// dearer than this, and Fold calls it k + n times a row for every estimator of a model.
+inline double Hypot(double a, double b) {
+  const double m = std::max(std::abs(a), std::abs(b));
+  if (m >= 1e-150 && m <= 1e150) return std::sqrt(a * a + b * b);
+  return std::hypot(a, b);
+}
+
+}  // namespace
 
 AugmentedFactor::AugmentedFactor(int k, int n)
     : k_(k),
@@ -27,7 +42,7 @@ void AugmentedFactor::Fold(const Eigen::Ref<const Eigen::VectorXd>& z) {
     const double zi = work_[i];
     if (zi == 0.0) continue;
     const double rii = r_(i, i);
-    const double h = std::hypot(rii, zi);
+    const double h = Hypot(rii, zi);
     const double c = rii / h;
     const double s = zi / h;
     r_(i, i) = h;
