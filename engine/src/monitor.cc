@@ -76,26 +76,84 @@ VolatilityMonitor CalibratedVolatilityMonitor(const std::vector<std::string>& va
   return fresh;
 }
 
-// A sequential monitor on recursive residuals with its own reference estimator.
+// The reference samples of a model's monitors: each monitor reads an expanding estimator of the
+// rows since it (re)started. Estimators fed the same rows from the same start are identical, bit
+// for bit, so monitors that started on the same row share one: the model pays one update per
+// distinct start instead of one per monitor (at the start of a model, one for the CUSUM,
+// volatility and restriction monitors, one for the constancy monitors, whose samples also hold
+// the presample rows).
+// Invariant: every sample holds exactly the rows given to Update since the Join that created
+// it; a sample is shared only while it holds no row yet (Join reuses an empty one).
+class ReferenceSamples {
+ public:
+  struct Sample {
+    explicit Sample(VarSpec spec) : estimator(std::move(spec)) {}
+    VarEstimator estimator;
+    UpdateResult last;  // of the latest Update
+    int users = 0;
+  };
+
+  // spec: the expanding reference spec of the model (ReferenceSpec).
+  explicit ReferenceSamples(VarSpec spec) : spec_(std::move(spec)) {}
+
+  // A sample that takes rows from the next Update on, keeping at least `row_cap` rows for robust
+  // covariances. The caller owns one use of it until Leave.
+  Sample* Join(std::size_t row_cap) {
+    for (const auto& s : samples_) {
+      if (s->estimator.observations() != 0) continue;
+      if (s->estimator.spec().window.robust_row_cap < row_cap) {
+        VarSpec wider = s->estimator.spec();  // empty: rebuilding it changes nothing
+        wider.window.robust_row_cap = row_cap;
+        s->estimator = VarEstimator(wider);
+      }
+      ++s->users;
+      return s.get();
+    }
+    VarSpec spec = spec_;
+    spec.window.robust_row_cap = row_cap;
+    samples_.push_back(std::make_unique<Sample>(spec));
+    samples_.back()->users = 1;
+    return samples_.back().get();
+  }
+  void Leave(Sample* sample) {
+    if (--sample->users > 0) return;
+    samples_.erase(std::find_if(samples_.begin(), samples_.end(),
+                                [&](const auto& s) { return s.get() == sample; }));
+  }
+  // Folds y into every sample (in join order).
+  void Update(const Eigen::VectorXd& y) {
+    for (const auto& s : samples_) s->last = s->estimator.Update(y);
+  }
+
+ private:
+  VarSpec spec_;
+  std::vector<std::unique_ptr<Sample>> samples_;
+};
+
+using Sample = ReferenceSamples::Sample;
+
+// A sequential monitor on the recursive residuals of its reference sample (nullptr until the
+// model's first estimated row: the sample starts there, without the presample rows).
 template <typename M>
 struct Sequential {
-  VarEstimator reference;
+  Sample* reference = nullptr;
   M monitor;
   AlertTracker tracker;
 };
 
-// A monitored restriction's alarm: its own reference estimator, scan and tracker.
+// A monitored restriction's alarm: its reference sample, scan and tracker.
 struct RestrictionAlarm {
-  VarEstimator reference;
+  Sample* reference = nullptr;
   RestrictionMonitor monitor;
   AlertTracker tracker;
 };
 
-// A parameter-constancy monitor: its own reference estimator (expanding since its start), the
-// block-wise test of constancy.h and its tracker. The recent sample is the Impl's
-// constancy_recent window, shared by both tests.
+// A parameter-constancy monitor: its reference sample (expanding since its start, presample
+// rows included), the block-wise test of constancy.h and its tracker. The recent sample is the
+// Impl's constancy_recent window, shared by both tests.
 struct ConstancyAlarm {
-  VarEstimator reference;
+  Sample* reference = nullptr;
+  std::size_t row_cap = 1;  // rows its sample keeps (the equality test's robust covariance)
   ConstancyMonitor monitor;
   AlertTracker tracker;
 };
@@ -106,6 +164,7 @@ struct Monitor::Impl {
   ModelSpec spec;
   RowTransformer transformer;
   VarEstimator tracking;
+  ReferenceSamples references;
   StabilityMonitor stability;
   AlertTracker stability_tracker;
   std::unique_ptr<Sequential<CusumMonitor>> cusum;
@@ -130,6 +189,7 @@ struct Monitor::Impl {
       : spec(s),
         transformer(s.var.variables, s.transforms),
         tracking(s.var),
+        references(ReferenceSpec(s.var)),
         stability(s.stability) {}
 
   AlertRule Rule() const { return AlertRule{spec.alarms.hysteresis, spec.alarms.cooldown}; }
@@ -141,12 +201,18 @@ struct Monitor::Impl {
   void Record(const std::optional<AlertEvent>& ev, RowReport* report);
   void Estimate(RowReport* report);
   void RunDiagnostics(RowReport* report);
-  void RunRestrictions(const Eigen::VectorXd& y, RowReport* report);
+  void RunRestrictions(RowReport* report);
   void RunConstancy(const Eigen::VectorXd& y, RowReport* report);
   void ConstancyPresample(const Eigen::VectorXd& y);
   Status AddConstancy();  // builds the constancy monitors of spec.constancy
   template <typename M>
-  void RunSequential(Sequential<M>* seq, const Eigen::VectorXd& y, RowReport* report);
+  void RunSequential(Sequential<M>* seq, RowReport* report);
+  // A fresh reference sample for *slot, from the next row on (after a critical alarm).
+  void Restart(Sample** slot, std::size_t row_cap) {
+    Sample* fresh = references.Join(row_cap);
+    if (*slot != nullptr) references.Leave(*slot);
+    *slot = fresh;
+  }
 };
 
 std::optional<AlertEvent> Monitor::Impl::Observe(AlertTracker* tracker,
@@ -213,14 +279,13 @@ void Monitor::Impl::Estimate(RowReport* report) {
 // Restriction alarms: the scan of restriction_monitor.h on each restriction's reference
 // estimator (the rolling Wald path is computed once, in Estimate). After a critical alarm the
 // scan restarts on a fresh reference sample, like the other sequential monitors.
-void Monitor::Impl::RunRestrictions(const Eigen::VectorXd& y, RowReport* report) {
+void Monitor::Impl::RunRestrictions(RowReport* report) {
   for (const auto& ra : restriction_alarms) {
-    const UpdateResult u = ra->reference.Update(y);
     RestrictionReading reading;
-    ra->monitor.Observe(ra->reference, u, nullptr, &reading);
+    ra->monitor.Observe(ra->reference->estimator, ra->reference->last, nullptr, &reading);
     const std::optional<AlertEvent> ev = Observe(&ra->tracker, reading.alarm, report);
     if (ev && ev->raised && ev->level == AlertLevel::kCritical) {
-      ra->reference = VarEstimator(ra->reference.spec());
+      Restart(&ra->reference, 1);
       ra->monitor.Reset();
     }
   }
@@ -234,9 +299,8 @@ void Monitor::Impl::RunConstancy(const Eigen::VectorXd& y, RowReport* report) {
   if (!constancy_recent) return;
   constancy_recent->Update(y);
   for (const auto& ca : constancy_alarms) {
-    ca->reference.Update(y);
     ConstancyReading reading;
-    const Status st = ca->monitor.Observe(*constancy_recent, ca->reference, &reading);
+    const Status st = ca->monitor.Observe(*constancy_recent, ca->reference->estimator, &reading);
     if (!st.ok()) {  // cannot happen: both estimators are built from the validated spec
       reading.alarm.armed = false;
       reading.alarm.explanation = "Parameter constancy: " + st.ToString();
@@ -247,18 +311,19 @@ void Monitor::Impl::RunConstancy(const Eigen::VectorXd& y, RowReport* report) {
         ca->monitor.options().test == ConstancyMonitorOptions::Test::kReferenceEquality &&
         reading.evaluated && reading.evaluation >= ca->monitor.options().Evaluations();
     if (critical || horizon_used) {
-      ca->reference = VarEstimator(ca->reference.spec());
+      Restart(&ca->reference, ca->row_cap);
       ca->monitor.Reset();
     }
   }
 }
 
 // The presample rows of the tracking estimator go into the constancy estimators as well, so
-// that their row counts equal the model's (first cycle: evaluations at model rows m + j B).
+// that their row counts equal the model's (first cycle: evaluations at model rows m + j B). The
+// sequential monitors have not joined yet (their samples start at the first estimated row).
 void Monitor::Impl::ConstancyPresample(const Eigen::VectorXd& y) {
   if (!constancy_recent) return;
   constancy_recent->Update(y);
-  for (const auto& ca : constancy_alarms) ca->reference.Update(y);
+  references.Update(y);
 }
 
 // Advisory diagnostics (see Monitor::Create for the false-alarm bound).
@@ -294,14 +359,13 @@ void Monitor::Impl::RunDiagnostics(RowReport* report) {
 }
 
 template <typename M>
-void Monitor::Impl::RunSequential(Sequential<M>* seq, const Eigen::VectorXd& y, RowReport* report) {
-  const UpdateResult u = seq->reference.Update(y);
+void Monitor::Impl::RunSequential(Sequential<M>* seq, RowReport* report) {
   MonitorReading reading;
-  seq->monitor.Observe(u, &reading);  // a refused residual leaves the reading unarmed
+  seq->monitor.Observe(seq->reference->last, &reading);  // a refused residual: unarmed
   const std::optional<AlertEvent> ev = Observe(&seq->tracker, reading, report);
   if (ev && ev->raised && ev->level == AlertLevel::kCritical) {
     // Restart on a fresh reference sample: the old one no longer describes the process.
-    seq->reference = VarEstimator(seq->reference.spec());
+    Restart(&seq->reference, 1);
     seq->monitor.Reset();
   }
 }
@@ -332,16 +396,16 @@ Status Monitor::Impl::AddConstancy() {
     opt.false_alarm = spec.alarms.false_alarm;
     opt.warn_false_alarm = spec.alarms.warn_false_alarm;
     opt.covariance = spec.inference.covariance;
-    // The reference estimator counts rows; the equality test also needs every reference row
-    // for its robust covariance (at most training + horizon rows before it restarts).
-    VarSpec reference = ReferenceSpec(spec.var);
-    if (e.test == ConstancyMonitorOptions::Test::kReferenceEquality) {
-      reference.window.robust_row_cap =
-          static_cast<std::size_t>(spec.training_rows + spec.HorizonRows());
-    }
+    // The reference sample counts rows; the equality test also needs every reference row for
+    // its robust covariance (at most training + horizon rows before it restarts).
+    const std::size_t row_cap =
+        e.test == ConstancyMonitorOptions::Test::kReferenceEquality
+            ? static_cast<std::size_t>(spec.training_rows + spec.HorizonRows())
+            : 1;
     const std::string name = std::string("constancy.") + ConstancyTestName(e.test);
-    auto alarm = std::make_unique<ConstancyAlarm>(ConstancyAlarm{
-        VarEstimator(reference), ConstancyMonitor(), AlertTracker(spec.name, name, Rule())});
+    auto alarm = std::make_unique<ConstancyAlarm>(
+        ConstancyAlarm{references.Join(row_cap), row_cap, ConstancyMonitor(),
+                       AlertTracker(spec.name, name, Rule())});
     const Status st = ConstancyMonitor::Create(recent, opt, &alarm->monitor);
     if (!st.ok()) return Status::InvalidArgument(name + ": " + st.message());
     constancy_alarms.push_back(std::move(alarm));
@@ -365,8 +429,7 @@ Status Monitor::Create(const ModelSpec& spec, std::unique_ptr<Monitor>* out) {
   copt.false_alarm = spec.alarms.false_alarm;
   copt.warn_false_alarm = spec.alarms.warn_false_alarm;
   if (!copt.IsValid(&why)) return Status::InvalidArgument("cusum: " + why);
-  impl->cusum.reset(new Sequential<CusumMonitor>{VarEstimator(ReferenceSpec(spec.var)),
-                                                 CusumMonitor(spec.var.variables, copt),
+  impl->cusum.reset(new Sequential<CusumMonitor>{nullptr, CusumMonitor(spec.var.variables, copt),
                                                  AlertTracker(spec.name, "cusum", impl->Rule())});
 
   VolatilityMonitorOptions vopt;
@@ -376,7 +439,7 @@ Status Monitor::Create(const ModelSpec& spec, std::unique_ptr<Monitor>* out) {
   vopt.warn_false_alarm = spec.alarms.warn_false_alarm;
   if (!vopt.IsValid(spec.var.n(), &why)) return Status::InvalidArgument("volatility: " + why);
   impl->volatility.reset(new Sequential<VolatilityMonitor>{
-      VarEstimator(ReferenceSpec(spec.var)), CalibratedVolatilityMonitor(spec.var.variables, vopt),
+      nullptr, CalibratedVolatilityMonitor(spec.var.variables, vopt),
       AlertTracker(spec.name, "volatility", impl->Rule())});
 
   for (const RestrictionSpec& r : spec.restrictions) {
@@ -389,7 +452,7 @@ Status Monitor::Create(const ModelSpec& spec, std::unique_ptr<Monitor>* out) {
     ropt.false_alarm = spec.alarms.false_alarm;
     ropt.warn_false_alarm = spec.alarms.warn_false_alarm;
     auto alarm = std::make_unique<RestrictionAlarm>(
-        RestrictionAlarm{VarEstimator(ReferenceSpec(spec.var)), RestrictionMonitor(),
+        RestrictionAlarm{nullptr, RestrictionMonitor(),
                          AlertTracker(spec.name, "restriction." + r.name, impl->Rule())});
     st = RestrictionMonitor::Create(spec.var, restriction, ropt, &alarm->monitor);
     if (!st.ok()) return Status::InvalidArgument("restriction '" + r.name + "': " + st.message());
@@ -440,10 +503,16 @@ RowReport Monitor::Update(const std::string& period, const Eigen::Ref<const Eige
   report.estimated = true;
   report.row = ++m.rows;
   report.readings.reserve(m.trackers.size());
+  if (m.rows == 1) {  // the sequential monitors' samples start on the first estimated row
+    m.Restart(&m.cusum->reference, 1);
+    m.Restart(&m.volatility->reference, 1);
+    for (const auto& ra : m.restriction_alarms) m.Restart(&ra->reference, 1);
+  }
+  m.references.Update(y);
   m.Estimate(&report);
-  m.RunSequential(m.cusum.get(), y, &report);
-  m.RunSequential(m.volatility.get(), y, &report);
-  m.RunRestrictions(y, &report);
+  m.RunSequential(m.cusum.get(), &report);
+  m.RunSequential(m.volatility.get(), &report);
+  m.RunRestrictions(&report);
   m.RunConstancy(y, &report);
   m.RunDiagnostics(&report);
   return report;
