@@ -6,6 +6,8 @@
 #include <cmath>
 #include <numeric>
 
+#include "rimwatch/engine/eigenvalues.h"
+
 namespace rimwatch {
 namespace {
 
@@ -13,9 +15,9 @@ namespace {
 // (Jordan) pair perturbed by rounding splits by about sqrt(machine epsilon) ~ 1.5e-8.
 constexpr double kRepeatTolerance = 1e-6;
 
-bool ModulusOrder(const std::complex<double>& a, const std::complex<double>& b) {
-  const double ma = std::abs(a);
-  const double mb = std::abs(b);
+// Largest modulus first (ma = |a|, mb = |b|, computed once per eigenvalue).
+bool ModulusOrder(double ma, const std::complex<double>& a, double mb,
+                  const std::complex<double>& b) {
   if (ma != mb) return ma > mb;
   if (a.imag() != b.imag()) return a.imag() > b.imag();
   return a.real() > b.real();
@@ -38,21 +40,31 @@ Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eige
   const int k = spec.k();
   const int d = spec.num_deterministic();
   const Eigen::MatrixXd f = CompanionMatrix(spec, phi);
-  Eigen::EigenSolver<Eigen::MatrixXd> es(f, with_gradient);
-  if (es.info() != Eigen::Success) {
-    return Status::Numerical("companion eigen solver did not converge");
+  // Eigenvalues only (every row of a monitor): the small Hessenberg QR of eigenvalues.h. With
+  // the gradient: Eigen's solver, for the eigenvectors as well (and as the fallback).
+  Eigen::VectorXcd fast;
+  const bool quick = !with_gradient && RealEigenvalues(f, &fast);
+  Eigen::EigenSolver<Eigen::MatrixXd> es;
+  if (!quick) {
+    es.compute(f, with_gradient);
+    if (es.info() != Eigen::Success) {
+      return Status::Numerical("companion eigen solver did not converge");
+    }
   }
-  const Eigen::VectorXcd& lambda = es.eigenvalues();
+  const Eigen::VectorXcd& lambda = quick ? fast : es.eigenvalues();
   const int np = static_cast<int>(lambda.size());
+  std::vector<double> modulus(np);
+  for (int i = 0; i < np; ++i) modulus[i] = std::abs(lambda[i]);
   std::vector<int> order(np);
   std::iota(order.begin(), order.end(), 0);
-  std::sort(order.begin(), order.end(),
-            [&](int a, int b) { return ModulusOrder(lambda[a], lambda[b]); });
+  std::sort(order.begin(), order.end(), [&](int a, int b) {
+    return ModulusOrder(modulus[a], lambda[a], modulus[b], lambda[b]);
+  });
   out->eigenvalues.resize(np);
   for (int i = 0; i < np; ++i) out->eigenvalues[i] = lambda[order[i]];
   const int top = order[0];
   const std::complex<double> lt = lambda[top];
-  out->spectral_radius = std::abs(lt);
+  out->spectral_radius = modulus[top];
   out->gradient.resize(0);
   if (!with_gradient) {
     out->gradient_status = Status::Unavailable("gradient not requested");
