@@ -60,7 +60,9 @@ CREATE UNIQUE INDEX models_active_name ON models (name) WHERE dropped_at IS NULL
 
 -- Per-row statistics of a model at the tests cadence (daemon/record.h): spectral radius and its
 -- SE as columns for charts, the rest (restriction tests, monitor statistics and levels) as the
--- JSON payload of RowPayload.
+-- JSON payload of RowPayload. With a record on every row, payload.monitors holds only the
+-- readings that changed since the previous row, and every full_readings_every-th row (100 by
+-- default) holds them all: a monitor missing from a row reads as on the latest earlier row.
 CREATE TABLE tests (
   model_id INTEGER NOT NULL REFERENCES models (id),
   row INTEGER NOT NULL,

@@ -55,6 +55,14 @@ void GrowMonitor(MonitorTrack* t, std::size_t n) {
   t->critical.resize(n, kNaN);
   t->armed.resize(n, 0);
 }
+// Row i of t repeats row i - 1. REQUIRES: t holds rows 0..i-1 (i >= 1: a track exists only
+// from the row that first carried it).
+void CarryMonitor(MonitorTrack* t, std::size_t i) {
+  t->statistic.push_back(t->statistic[i - 1]);
+  t->warn.push_back(t->warn[i - 1]);
+  t->critical.push_back(t->critical[i - 1]);
+  t->armed.push_back(t->armed[i - 1]);
+}
 void GrowRestriction(RestrictionTrack* t, std::size_t n) {
   t->statistic.resize(n, kNaN);
   t->p_value.resize(n, kNaN);
@@ -187,6 +195,9 @@ Status HistoryReader::LoadTests(ModelHistory* out) {
       ++out->rows_not_estimable;
       out->last_not_estimable = p["estimate"].get<std::string>();
     }
+    // A monitor missing from a row's payload reads as on the previous row (the log keeps only
+    // the readings that changed, daemon/record.h): carry every track forward, then overwrite.
+    for (auto& [name, t] : out->monitors) CarryMonitor(&t, i);
     if (p.contains("monitors") && p["monitors"].is_object()) {
       for (const auto& [name, m] : p["monitors"].items()) {
         auto [it, fresh] = out->monitors.try_emplace(name);

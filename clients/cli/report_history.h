@@ -8,7 +8,9 @@
 // (every model including dropped ones, the tests and snapshots tables). Nothing is written.
 //
 // Per-row series are column-wise and aligned to ModelHistory::rows; a value the payload does not
-// carry on a row (not a robust row, a null number, a monitor absent) is NaN there.
+// carry on a row (not a robust row, a null number) is NaN there. A monitor's reading absent from
+// a row's payload is its reading on the previous row (logs keep the readings that changed,
+// daemon/record.h), NaN before the first row that has it.
 //
 // Thread safety: none (one owner).
 #pragma once

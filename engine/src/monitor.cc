@@ -1,6 +1,7 @@
 #include "rimwatch/engine/monitor.h"
 
 #include <algorithm>
+#include <bit>
 #include <cmath>
 #include <cstdio>
 #include <limits>
@@ -132,6 +133,22 @@ class ReferenceSamples {
 
 using Sample = ReferenceSamples::Sample;
 
+// The numbers of a reading that a log keeps (MonitorSample::changed), compared bit for bit so
+// that a NaN equals itself and -0.0 differs from 0.0. A default one differs from every reading.
+struct LoggedReading {
+  LoggedReading() = default;
+  explicit LoggedReading(const MonitorReading& r)
+      : valid(true), armed(r.armed), bits{Bits(r.statistic), Bits(r.warn), Bits(r.critical)} {}
+  bool Same(const MonitorReading& r) const {
+    return valid && armed == r.armed && bits[0] == Bits(r.statistic) && bits[1] == Bits(r.warn) &&
+           bits[2] == Bits(r.critical);
+  }
+  static std::uint64_t Bits(double v) { return std::bit_cast<std::uint64_t>(v); }
+  bool valid = false;
+  bool armed = false;
+  std::uint64_t bits[3] = {0, 0, 0};
+};
+
 // A sequential monitor on the recursive residuals of its reference sample (nullptr until the
 // model's first estimated row: the sample starts there, without the presample rows).
 template <typename M>
@@ -182,6 +199,7 @@ struct Monitor::Impl {
   double diagnostic_alpha = 0.0;        // Bonferroni level per line and evaluation
   std::vector<AlertTracker*> trackers;  // event order, for ActiveAlerts
   std::map<std::string, AlertEvent> active;
+  std::vector<LoggedReading> previous;  // each monitor's reading on the previous row
   std::int64_t rows = 0;
   std::optional<double> rho_se;
 
@@ -219,6 +237,7 @@ std::optional<AlertEvent> Monitor::Impl::Observe(AlertTracker* tracker,
                                                  const MonitorReading& reading, RowReport* report) {
   // The sample keeps the numbers only; the explanation text (built for an alert) goes into the
   // event when one is raised, and copying it per monitor per row was a large share of a row.
+  const std::size_t index = report->readings.size();
   MonitorSample& sample = report->readings.emplace_back();
   sample.monitor = tracker->monitor();
   sample.reading.armed = reading.armed;
@@ -226,6 +245,9 @@ std::optional<AlertEvent> Monitor::Impl::Observe(AlertTracker* tracker,
   sample.reading.warn = reading.warn;
   sample.reading.critical = reading.critical;
   sample.reading.clear = reading.clear;
+  if (index >= previous.size()) previous.resize(index + 1);
+  sample.changed = !previous[index].Same(reading);
+  previous[index] = LoggedReading(reading);
   std::optional<AlertEvent> ev = tracker->Observe(rows, report->period, reading);
   Record(ev, report);
   return ev;

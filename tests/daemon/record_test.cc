@@ -239,6 +239,69 @@ TEST(RecordTest, CadencesAlertsAndSnapshotsMatchTheMonitor) {
   EXPECT_EQ(check, "ok");
 }
 
+// With a tests record on every row, a record keeps only the readings that changed since the
+// previous row, and every full_readings_every-th row keeps them all. The invariant a reader relies
+// on: carrying each monitor's reading forward over the stored rows gives back, row for row, every
+// reading the Monitor produced (RowPayload, bit for bit).
+TEST(RecordTest, ChangedReadingsCarriedForwardGiveEveryReading) {
+  const std::string path = FreshDir("record_changed") + "/log.db";
+  StoreOptions so;
+  so.path = path;
+  std::unique_ptr<Store> store;
+  ASSERT_OK(Store::Open(so, &store));
+  std::unique_ptr<Monitor> monitor;
+  ASSERT_OK(Monitor::Create(Spec(), &monitor));
+  RecordOptions ro;  // tests on every row (the default)
+  ro.full_readings_every = 50;
+  std::int64_t model = 0;
+  ASSERT_OK(store->Begin());
+  ASSERT_OK(store->AddModel("rec", "name = \"rec\"\n", "2026-01-01T00:00:00Z", &model));
+  const Eigen::MatrixXd y = BreakData();
+  std::map<std::int64_t, json> full;  // row -> RowPayload(report)["monitors"]
+  std::map<std::int64_t, std::set<std::string>> changed;
+  std::size_t full_bytes = 0;
+  for (Eigen::Index r = 0; r < y.rows(); ++r) {
+    const RowReport report = monitor->Update(std::to_string(r + 1), y.row(r).transpose());
+    ASSERT_TRUE(report.status.ok()) << report.status.ToString();
+    ASSERT_OK(RecordRow(*store, model, *monitor, report, ro, "2026-01-01T00:00:01Z"));
+    if (!report.estimated) continue;
+    full[report.row] = RowPayload(report)["monitors"];
+    for (const MonitorSample& s : report.readings) {
+      if (s.changed) changed[report.row].insert(s.monitor);
+    }
+    full_bytes += RowPayloadText(report).size();
+  }
+  ASSERT_OK(store->Commit());
+  ASSERT_EQ(full.size(), 998u);
+  const std::vector<std::string> names = monitor->MonitorNames();
+
+  SqliteFile f(path);
+  json carried = json::object();
+  std::size_t stored_bytes = 0, rows = 0;
+  for (const auto& r : f.Rows("SELECT row, payload FROM tests WHERE model_id = " +
+                              std::to_string(model) + " ORDER BY row")) {
+    const std::int64_t row = std::stoll(r[0]);
+    ++rows;
+    stored_bytes += r[1].size();
+    const json payload = json::parse(r[1]);
+    std::set<std::string> present;
+    for (const auto& [name, reading] : payload["monitors"].items()) {
+      present.insert(name);
+      carried[name] = reading;
+    }
+    if (row == 1 || row % 50 == 0) {
+      EXPECT_EQ(present.size(), names.size()) << "row " << row << " keeps every reading";
+    } else {
+      EXPECT_EQ(present, changed[row]) << "row " << row;
+    }
+    ASSERT_EQ(carried, full[row]) << "row " << row;
+  }
+  EXPECT_EQ(rows, 998u);
+  std::printf("tests payloads: %zu bytes stored, %zu with every reading (%.2f)\n", stored_bytes,
+              full_bytes, static_cast<double>(stored_bytes) / static_cast<double>(full_bytes));
+  EXPECT_LT(stored_bytes, full_bytes / 2);  // most readings hold from row to row
+}
+
 TEST(RecordTest, OptionsAndTransactionAreChecked) {
   const std::string path = FreshDir("record_options") + "/log.db";
   StoreOptions so;

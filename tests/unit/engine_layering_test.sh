@@ -6,7 +6,7 @@ dir=${1:?usage: engine_layering_test.sh ENGINE_DIR}
 bad=$(grep -rhoE '^\s*#\s*include\s*[<"][^>"]+[>"]' "$dir" --include='*.h' --include='*.cc' |
   sed -E 's/^\s*#\s*include\s*[<"]([^>"]+)[>"]/\1/' | sort -u |
   grep -vE '^(Eigen/|boost/math/|rimwatch/engine/)' |
-  grep -vE '^(algorithm|array|cmath|complex|cstddef|cstdint|cstdlib|functional|limits|memory|numeric|optional|set|sstream|string|string_view|utility|vector|deque|map|unordered_map|span|tuple|type_traits|stdexcept|cassert|iomanip|random|cstdio|mutex|initializer_list|list)$' || true)
+  grep -vE '^(algorithm|array|cmath|complex|cstddef|cstdint|cstdlib|functional|limits|memory|numeric|optional|set|sstream|string|string_view|utility|vector|deque|map|unordered_map|span|tuple|type_traits|stdexcept|cassert|iomanip|random|cstdio|mutex|initializer_list|list|bit)$' || true)
 if [ -n "$bad" ]; then
   echo "engine includes outside its layer:"; echo "$bad"; exit 1
 fi

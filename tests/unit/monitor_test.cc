@@ -7,6 +7,7 @@
 #include <gtest/gtest.h>
 
 #include <algorithm>
+#include <bit>
 #include <map>
 #include <random>
 
@@ -146,7 +147,11 @@ TEST(MonitorTest, ReadingsFollowMonitorNamesAndDriveTheEvents) {
   EXPECT_EQ(names[4], "constancy.nyblom_hansen");
   EXPECT_EQ(names[5], "constancy.reference_equality");
   std::map<std::string, int> armed_rows;  // per monitor: estimated rows with an armed reading
-  int events = 0, estimated = 0;
+  int events = 0, estimated = 0, changed = 0, held = 0;
+  std::vector<MonitorSample> previous;
+  auto same = [](double a, double b) {
+    return std::bit_cast<std::uint64_t>(a) == std::bit_cast<std::uint64_t>(b);
+  };
   for (int r = 0; r < y.rows(); ++r) {
     const RowReport report = mon->Update(std::to_string(r), y.row(r).transpose());
     if (!report.estimated) {
@@ -158,11 +163,19 @@ TEST(MonitorTest, ReadingsFollowMonitorNamesAndDriveTheEvents) {
     for (std::size_t i = 0; i < names.size(); ++i) {
       const MonitorSample& s = report.readings[i];
       ASSERT_EQ(s.monitor, names[i]);
+      // changed: differs from the previous row's reading in a logged number (all on row 1).
+      const bool differs = previous.empty() || previous[i].reading.armed != s.reading.armed ||
+                           !same(previous[i].reading.statistic, s.reading.statistic) ||
+                           !same(previous[i].reading.warn, s.reading.warn) ||
+                           !same(previous[i].reading.critical, s.reading.critical);
+      EXPECT_EQ(s.changed, differs) << s.monitor << " row " << report.row;
+      (s.changed ? changed : held) += 1;
       if (report.row <= spec.training_rows && s.monitor.rfind("diagnostics.", 0) != 0) {
         EXPECT_FALSE(s.reading.armed) << s.monitor << " armed while training, row " << report.row;
       }
       armed_rows[s.monitor] += s.reading.armed;
     }
+    previous = report.readings;
     for (const AlertEvent& ev : report.events) {
       ++events;
       auto it = std::find_if(report.readings.begin(), report.readings.end(),
@@ -181,6 +194,8 @@ TEST(MonitorTest, ReadingsFollowMonitorNamesAndDriveTheEvents) {
   }
   EXPECT_EQ(estimated, mon->rows());
   EXPECT_GT(events, 0);
+  EXPECT_GT(changed, 0);
+  EXPECT_GT(held, 0);  // the block-wise tests and diagnostics hold between evaluations
   // After training every monitor has armed readings: the stability, CUSUM, volatility and
   // restriction monitors on (nearly) every later row, each diagnostic line on its evaluations.
   const int after = estimated - spec.training_rows;

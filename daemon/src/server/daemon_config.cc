@@ -133,6 +133,10 @@ bool DaemonConfig::IsValid(std::string* why) const {
     return fail("records.tests_every = " + std::to_string(records.tests_every) +
                 ": must be at least 1");
   }
+  if (records.full_readings_every < 1) {
+    return fail("records.full_readings_every = " + std::to_string(records.full_readings_every) +
+                ": must be at least 1");
+  }
   if (records.snapshot_every < 0) {
     return fail("records.snapshot_every = " + std::to_string(records.snapshot_every) +
                 ": must be 0 (never) or more");
@@ -189,8 +193,10 @@ Status ParseDaemonConfig(std::string_view text, std::string_view source, DaemonC
     r.Int(*t, "limits.", "max_message_bytes", &c.max_message_bytes);
   }
   if (const toml::table* t = r.Table(root, "records")) {
-    r.OnlyKeys(*t, "records.", {"tests_every", "snapshot_every", "retention_rows"});
+    r.OnlyKeys(*t, "records.",
+               {"tests_every", "full_readings_every", "snapshot_every", "retention_rows"});
     r.Int(*t, "records.", "tests_every", &c.records.tests_every);
+    r.Int(*t, "records.", "full_readings_every", &c.records.full_readings_every);
     r.Int(*t, "records.", "snapshot_every", &c.records.snapshot_every);
     r.Int(*t, "records.", "retention_rows", &c.retention_rows);
   }

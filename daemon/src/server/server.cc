@@ -384,7 +384,9 @@ struct Server::Impl {
       Status st = PrepareRecords(h.id(), h.monitor(), report, config.records, &records);
       if (!st.ok()) d.status = st;
       if (config.est_every > 0 && (++state->est_counter % config.est_every) == 0) {
-        if (records.test) {  // the tests record's payload, with the model added
+        // Every row's event: the tests record's payload (its readings are those that changed
+        // since the previous row's event), with the model added. Otherwise every reading.
+        if (records.test && config.est_every == 1) {
           d.est_bodies.push_back(EventBody(records.test->payload_json, h.name()));
         } else {
           std::string body;

@@ -86,7 +86,8 @@ class TextWriter {
 
 }  // namespace
 
-void AppendRowPayloadText(const RowReport& report, const std::string* model, std::string* out) {
+void AppendRowPayloadText(const RowReport& report, const std::string* model, std::string* out,
+                          PayloadReadings readings) {
   TextWriter w(out);
   w.Raw("{\"row\":");
   w.Integer(report.row);
@@ -127,6 +128,7 @@ void AppendRowPayloadText(const RowReport& report, const std::string* model, std
   w.Raw("},\"monitors\":{");
   first = true;
   for (const MonitorSample& s : report.readings) {
+    if (readings == PayloadReadings::kChanged && !s.changed) continue;
     if (!first) w.Raw(",");
     first = false;
     w.Key(s.monitor);
@@ -159,11 +161,18 @@ std::string EventBody(const std::string& payload_text, const std::string& model)
   return out;
 }
 
-std::string RowPayloadText(const RowReport& report) {
+std::string RowPayloadText(const RowReport& report, PayloadReadings readings) {
   std::string out;
-  out.reserve(512);
-  AppendRowPayloadText(report, nullptr, &out);
+  out.reserve(readings == PayloadReadings::kAll ? 2048 : 768);
+  AppendRowPayloadText(report, nullptr, &out, readings);
   return out;
+}
+
+PayloadReadings RecordedReadings(const RowReport& report, const RecordOptions& options) {
+  if (options.tests_every > 1 || report.row % options.full_readings_every == 0) {
+    return PayloadReadings::kAll;
+  }
+  return PayloadReadings::kChanged;
 }
 
 json RowPayload(const RowReport& report) {
@@ -223,6 +232,10 @@ Status PrepareRecords(std::int64_t model_id, const Monitor& monitor, const RowRe
     return Status::InvalidArgument("record: tests_every = " + std::to_string(options.tests_every) +
                                    ": must be >= 1");
   }
+  if (options.full_readings_every < 1) {
+    return Status::InvalidArgument("record: full_readings_every = " +
+                                   std::to_string(options.full_readings_every) + ": must be >= 1");
+  }
   if (options.snapshot_every < 0) {
     return Status::InvalidArgument(
         "record: snapshot_every = " + std::to_string(options.snapshot_every) +
@@ -237,7 +250,7 @@ Status PrepareRecords(std::int64_t model_id, const Monitor& monitor, const RowRe
       t.period = report.period;
       if (report.has_spectral_radius) t.rho = report.spectral_radius;
       t.rho_se = report.rho_se;
-      t.payload_json = RowPayloadText(report);
+      t.payload_json = RowPayloadText(report, RecordedReadings(report, options));
     }
     if (options.snapshot_every > 0 && report.row % options.snapshot_every == 0) {
       json snapshot;

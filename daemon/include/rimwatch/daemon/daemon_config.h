@@ -13,6 +13,8 @@
 //   max_message_bytes = 1048576       # larger requests are refused (too_large)
 //   [records]
 //   tests_every = 1                   # model rows between recorded test rows
+//   full_readings_every = 100         # rows between test rows with every monitor's reading
+//                                     # (the others keep the readings that changed; 1 = all)
 //   snapshot_every = 100              # model rows between coefficient snapshots (0 = never)
 //   retention_rows = 0                # keep tests / snapshots of the last N rows (0 = all)
 //   [events]

@@ -4,7 +4,13 @@
 //
 // Per estimated row:
 //   - tests: one TestRecord every `tests_every` model rows, and on every row that carries an alert
-//     event; payload = RowPayload(report) (below);
+//     event; payload = RowPayloadText(report, readings) (below). With tests_every = 1 its
+//     "monitors" hold only the readings that changed since the previous row
+//     (MonitorSample::changed), except on every `full_readings_every`-th model row, which holds
+//     them all: a monitor missing from a row reads as on the latest earlier row that has it, and
+//     a reader finds every monitor within full_readings_every rows. (Block-wise tests and the
+//     advisory diagnostics hold their readings between evaluations: most rows change four or
+//     five readings of twenty.) With tests_every > 1 every record holds every reading;
 //   - snapshots: one every `snapshot_every` model rows, payload = SnapshotPayload(monitor)
 //     (none on a row whose window cannot be summarised, e.g. rank deficient: its tests record
 //     says why in "estimate");
@@ -29,8 +35,12 @@ namespace rimwatch::daemon {
 struct RecordOptions {
   int tests_every = 1;       // model rows between TestRecords, >= 1
   int snapshot_every = 100;  // model rows between snapshots, >= 1; 0 = never
-  bool alerts = true;        // false: write tests and snapshots only (a rebuild after a revision
-                             // records its alert changes itself)
+  // Model rows between tests records that hold every monitor's reading (see above), >= 1; 1 =
+  // every record holds them all (larger rows, about 2.3 KB instead of 0.6 KB for a model of
+  // three variables with the default monitors).
+  int full_readings_every = 100;
+  bool alerts = true;  // false: write tests and snapshots only (a rebuild after a revision
+                       // records its alert changes itself)
 };
 
 // {"row":..,"period":..,"estimate":"ok"|"<code>: <why>","rho":..|null,"rho_se":..|null,
@@ -41,11 +51,21 @@ struct RecordOptions {
 // rows that are not robust rows (RowReport::restrictions); doubles print as the shortest text
 // that reads back to the same double.
 nlohmann::ordered_json RowPayload(const RowReport& report);
+// Which readings a payload's "monitors" holds.
+enum class PayloadReadings {
+  kAll,      // every monitor's
+  kChanged,  // those with MonitorSample::changed
+};
 // The same document written directly as text (what the store and est.<model> carry; equal to
-// RowPayload(report) as JSON values, number for number). model: when not null, a last member
-// "model" (the event body). Appends to *out.
-void AppendRowPayloadText(const RowReport& report, const std::string* model, std::string* out);
-std::string RowPayloadText(const RowReport& report);
+// RowPayload(report) as JSON values, number for number, with kAll; with kChanged the same less
+// the unchanged readings). model: when not null, a last member "model" (the event body).
+// Appends to *out.
+void AppendRowPayloadText(const RowReport& report, const std::string* model, std::string* out,
+                          PayloadReadings readings = PayloadReadings::kAll);
+std::string RowPayloadText(const RowReport& report,
+                           PayloadReadings readings = PayloadReadings::kAll);
+// The readings a tests record of this row holds under these options (see above).
+PayloadReadings RecordedReadings(const RowReport& report, const RecordOptions& options);
 // RowPayloadText's text with the last member "model" added: the same as AppendRowPayloadText
 // with a model, from a payload already built. REQUIRES: payload_text is RowPayloadText's.
 std::string EventBody(const std::string& payload_text, const std::string& model);

@@ -72,6 +72,11 @@ struct RestrictionRow {
 struct MonitorSample {
   std::string monitor;  // as in MonitorNames()
   MonitorReading reading;
+  // The reading differs from this monitor's reading on the model's previous estimated row (in
+  // armed, statistic, warn or critical, bit for bit); true on the first row. Block-wise tests
+  // hold their reading between evaluations, a Page CUSUM at zero reads the same row after row:
+  // logs may keep only the changed readings.
+  bool changed = true;
 };
 
 struct RowReport {
