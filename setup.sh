@@ -14,7 +14,7 @@ packages=(
   libeigen3-dev libboost-math-dev
   libgtest-dev libgmock-dev libbenchmark-dev
   libcli11-dev nlohmann-json3-dev libtomlplusplus-dev libspdlog-dev
-  libzmq3-dev cppzmq-dev libsqlite3-dev sqlite3 chromium
+  libzmq3-dev cppzmq-dev libsqlite3-dev sqlite3 libjemalloc-dev chromium
   python3-numpy python3-scipy python3-statsmodels python3-pandas python3-zmq python3-jsonschema
 )
 missing=()

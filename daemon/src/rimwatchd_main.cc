@@ -44,11 +44,14 @@ Alerts are statistical evidence, not trading or policy advice.
 }  // namespace
 
 int main(int argc, char** argv) {
-  // Every row allocates and frees the same small working set on two threads; glibc's default
-  // trims freed heap top back to the kernel and faults it in again (a tenth of the model
-  // thread in the daemon bench). Keep up to 256 MiB of freed memory per arena instead.
+#ifndef RIMWATCH_JEMALLOC
+  // Built without jemalloc (daemon/CMakeLists.txt): every row allocates and frees the same small
+  // working set on two threads; glibc's default trims freed heap top back to the kernel and
+  // faults it in again (a tenth of the model thread in the daemon bench). Keep up to 256 MiB of
+  // freed memory per arena instead.
   mallopt(M_TRIM_THRESHOLD, 256 << 20);
   mallopt(M_TOP_PAD, 16 << 20);
+#endif
   CLI::App app{"rimwatchd: keeps VAR models estimated as data arrives and raises alerts"};
   app.footer(kFooter);
   std::string data_dir;
