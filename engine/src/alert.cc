@@ -1,8 +1,19 @@
 #include "rimwatch/engine/alert.h"
 
+#include <mutex>
+#include <set>
 #include <sstream>
 
 namespace rimwatch {
+
+std::string_view InternMonitorName(std::string_view name) {
+  static std::mutex mutex;
+  static auto* names = new std::set<std::string, std::less<>>;  // never freed: views stay valid
+  std::lock_guard<std::mutex> lock(mutex);
+  auto it = names->find(name);
+  if (it == names->end()) it = names->emplace(name).first;
+  return *it;
+}
 
 const char* AlertLevelName(AlertLevel level) {
   switch (level) {
@@ -26,17 +37,22 @@ std::optional<AlertEvent> AlertTracker::Observe(std::int64_t row, const std::str
       now = AlertLevel::kWarn;
     }
   }
-  AlertEvent ev;
-  ev.row = row;
-  ev.period = period;
-  ev.model = model_;
-  ev.monitor = monitor_;
-  ev.statistic = reading.statistic;
+  // The event is built only for a transition (most rows have none, and its strings cost).
+  const auto event = [&] {
+    AlertEvent ev;
+    ev.row = row;
+    ev.period = period;
+    ev.model = model_;
+    ev.monitor = monitor_;
+    ev.statistic = reading.statistic;
+    return ev;
+  };
   if (now > level_) {
     const bool cooling = level_ == AlertLevel::kNone && row - last_clear_row_ <= rule_.cooldown;
     if (cooling) return std::nullopt;
     level_ = now;
     rows_below_clear_ = 0;
+    AlertEvent ev = event();
     ev.raised = true;
     ev.level = now;
     ev.threshold = now == AlertLevel::kCritical ? reading.critical : reading.warn;
@@ -49,6 +65,7 @@ std::optional<AlertEvent> AlertTracker::Observe(std::int64_t row, const std::str
   const bool below = !reading.armed || reading.statistic < reading.clear;
   rows_below_clear_ = below ? rows_below_clear_ + 1 : 0;
   if (rows_below_clear_ < rule_.hysteresis) return std::nullopt;
+  AlertEvent ev = event();
   ev.raised = false;
   ev.level = level_;
   ev.threshold = reading.clear;

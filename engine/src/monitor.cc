@@ -239,7 +239,7 @@ std::optional<AlertEvent> Monitor::Impl::Observe(AlertTracker* tracker,
   // event when one is raised, and copying it per monitor per row was a large share of a row.
   const std::size_t index = report->readings.size();
   MonitorSample& sample = report->readings.emplace_back();
-  sample.monitor = tracker->monitor();
+  sample.monitor = tracker->interned_monitor();
   sample.reading.armed = reading.armed;
   sample.reading.statistic = reading.statistic;
   sample.reading.warn = reading.warn;

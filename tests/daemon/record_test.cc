@@ -267,7 +267,7 @@ TEST(RecordTest, ChangedReadingsCarriedForwardGiveEveryReading) {
     if (!report.estimated) continue;
     full[report.row] = RowPayload(report)["monitors"];
     for (const MonitorSample& s : report.readings) {
-      if (s.changed) changed[report.row].insert(s.monitor);
+      if (s.changed) changed[report.row].insert(std::string(s.monitor));
     }
     full_bytes += RowPayloadText(report).size();
   }

@@ -505,6 +505,24 @@ TEST(WireEncodeTest, OkReplyCarriesTheResultAfterSeqAndOk) {
   EXPECT_EQ(json::parse(EncodeOk(lowest)).at("seq").get<std::int64_t>(), lowest);
 }
 
+TEST(WireEncodeTest, DataReplyEqualsTheGeneralEncoder) {
+  const std::int64_t big = std::numeric_limits<std::int64_t>::max();
+  const std::int64_t lowest = std::numeric_limits<std::int64_t>::min();
+  for (const std::optional<std::int64_t>& seq :
+       {std::optional<std::int64_t>(0), std::optional<std::int64_t>(-5),
+        std::optional<std::int64_t>(big), std::optional<std::int64_t>(lowest),
+        std::optional<std::int64_t>()}) {
+    for (const DataCounts& c :
+         {DataCounts{}, DataCounts{3, 0, 0, 0}, DataCounts{100000, 7, 2, 1}}) {
+      const json result = {{"stored", c.stored},
+                           {"duplicates", c.duplicates},
+                           {"revisions", c.revisions},
+                           {"late", c.late}};
+      EXPECT_EQ(EncodeDataOk(seq, c), EncodeOk(seq, result));
+    }
+  }
+}
+
 TEST(WireEncodeTest, ErrorReplyRoundTripsEveryCode) {
   std::set<std::string> names;
   for (int i = 0; i < kErrorCodeCount; ++i) {

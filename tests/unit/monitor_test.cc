@@ -173,7 +173,7 @@ TEST(MonitorTest, ReadingsFollowMonitorNamesAndDriveTheEvents) {
       if (report.row <= spec.training_rows && s.monitor.rfind("diagnostics.", 0) != 0) {
         EXPECT_FALSE(s.reading.armed) << s.monitor << " armed while training, row " << report.row;
       }
-      armed_rows[s.monitor] += s.reading.armed;
+      armed_rows[std::string(s.monitor)] += s.reading.armed;
     }
     previous = report.readings;
     for (const AlertEvent& ev : report.events) {

@@ -82,7 +82,7 @@ struct SeriesEntry {
 struct PendingReply {
   std::vector<zmq::message_t> envelope;
   std::optional<std::int64_t> seq;
-  json result;
+  DataCounts counts;  // the reply of a data request, sent once its group commits
 };
 
 }  // namespace
@@ -106,6 +106,7 @@ struct Server::Impl {
   std::int64_t pending_obs = 0;
   Clock::time_point group_started;
   std::int64_t commits = 0;
+  UtcNowCache clock_text;  // received_at of data requests
 
   // Health.
   Clock::time_point started = Clock::now();
@@ -584,7 +585,7 @@ struct Server::Impl {
     for (auto& state : hosts) {
       if (!state->cursor_frozen) state->stored_inputs = state->taken_inputs;
     }
-    for (PendingReply& p : pending) SendReply(p.envelope, EncodeOk(p.seq, p.result));
+    for (PendingReply& p : pending) SendReply(p.envelope, EncodeDataOk(p.seq, p.counts));
     pending.clear();
     pending_obs = 0;
     PublishEvents();
@@ -619,10 +620,10 @@ struct Server::Impl {
     }
     Status st = EnsureGroup();
     if (!st.ok()) {
-      pending.push_back({std::move(envelope), req.seq, json::object()});
+      pending.push_back({std::move(envelope), req.seq, DataCounts{}});
       return FailGroup(st);
     }
-    const std::string now = UtcNowText();
+    const std::string& now = clock_text.Now();
     const auto wall = Clock::now();
     std::int64_t n_new = 0, n_dup = 0, n_rev = 0, n_late = 0;
     for (const Observation& o : req.observations) {
@@ -673,7 +674,7 @@ struct Server::Impl {
       if (!st.ok()) break;
     }
     if (!st.ok()) {
-      pending.push_back({std::move(envelope), req.seq, json::object()});
+      pending.push_back({std::move(envelope), req.seq, DataCounts{}});
       return FailGroup(st);
     }
     accepted += n_new + n_rev + n_late;
@@ -681,11 +682,8 @@ struct Server::Impl {
     revisions += n_rev;
     late += n_late;
     pending_obs += static_cast<std::int64_t>(req.observations.size());
-    json result = {{"stored", n_new + n_rev + n_late},
-                   {"duplicates", n_dup},
-                   {"revisions", n_rev},
-                   {"late", n_late}};
-    pending.push_back({std::move(envelope), req.seq, std::move(result)});
+    pending.push_back(
+        {std::move(envelope), req.seq, DataCounts{n_new + n_rev + n_late, n_dup, n_rev, n_late}});
   }
 
   void ClearStale(HostState& state, const std::string& now) {

@@ -188,10 +188,10 @@ json RowPayload(const RowReport& report) {
   }
   json monitors = json::object();
   for (const MonitorSample& s : report.readings) {
-    monitors[s.monitor] = json{{"armed", s.reading.armed},
-                               {"statistic", Number(s.reading.statistic)},
-                               {"warn", Number(s.reading.warn)},
-                               {"critical", Number(s.reading.critical)}};
+    monitors[std::string(s.monitor)] = json{{"armed", s.reading.armed},
+                                            {"statistic", Number(s.reading.statistic)},
+                                            {"warn", Number(s.reading.warn)},
+                                            {"critical", Number(s.reading.critical)}};
   }
   return json{{"row", report.row},
               {"period", report.period},

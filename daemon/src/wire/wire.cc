@@ -693,6 +693,21 @@ std::string EncodeOk(const std::optional<std::int64_t>& seq, const nlohmann::ord
   return Dump(out);
 }
 
+std::string EncodeDataOk(const std::optional<std::int64_t>& seq, const DataCounts& counts) {
+  std::string out = "{\"seq\":";
+  out += seq ? std::to_string(*seq) : std::string("null");
+  out += ",\"ok\":true,\"stored\":";
+  out += std::to_string(counts.stored);
+  out += ",\"duplicates\":";
+  out += std::to_string(counts.duplicates);
+  out += ",\"revisions\":";
+  out += std::to_string(counts.revisions);
+  out += ",\"late\":";
+  out += std::to_string(counts.late);
+  out += "}";
+  return out;
+}
+
 std::string EncodeError(const std::optional<std::int64_t>& seq, const WireError& error) {
   const json out = {{"seq", SeqJson(seq)},
                     {"ok", false},

@@ -111,6 +111,17 @@ std::string EncodeOk(const std::optional<std::int64_t>& seq,
                      const nlohmann::ordered_json& result = nlohmann::ordered_json::object());
 std::string EncodeError(const std::optional<std::int64_t>& seq, const WireError& error);
 
+// What a data request did to the store (the data reply's members).
+struct DataCounts {
+  std::int64_t stored = 0;  // new values, revisions and late values
+  std::int64_t duplicates = 0;
+  std::int64_t revisions = 0;
+  std::int64_t late = 0;
+};
+// The data reply: the same text as EncodeOk(seq, {"stored":..,"duplicates":..,"revisions":..,
+// "late":..}), written directly (one per data request, on the daemon's hot path).
+std::string EncodeDataOk(const std::optional<std::int64_t>& seq, const DataCounts& counts);
+
 // Event bodies.
 nlohmann::ordered_json AlertEventJson(const AlertEvent& event);
 std::string EncodeRejectEvent(const WireError& error, std::int64_t count);

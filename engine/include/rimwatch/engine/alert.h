@@ -13,10 +13,16 @@
 #include <limits>
 #include <optional>
 #include <string>
+#include <string_view>
 
 namespace rimwatch {
 
 enum class AlertLevel { kNone = 0, kWarn = 1, kCritical = 2 };
+
+// The process's one copy of a monitor name, for per-row readings that name their monitor without
+// copying the text (MonitorSample). The copies are never freed; there are as many as distinct
+// monitor names ever used (a few dozen per model spec). Thread-safe.
+std::string_view InternMonitorName(std::string_view name);
 const char* AlertLevelName(AlertLevel level);  // "none" | "warn" | "critical"
 
 struct MonitorReading {
@@ -51,17 +57,22 @@ class AlertTracker {
  public:
   AlertTracker() = default;
   AlertTracker(std::string model, std::string monitor, AlertRule rule)
-      : model_(std::move(model)), monitor_(std::move(monitor)), rule_(rule) {}
+      : model_(std::move(model)),
+        monitor_(std::move(monitor)),
+        interned_(InternMonitorName(monitor_)),
+        rule_(rule) {}
 
   // Feed the reading of row `row`; returns the transition, if any.
   std::optional<AlertEvent> Observe(std::int64_t row, const std::string& period,
                                     const MonitorReading& reading);
   AlertLevel level() const { return level_; }
   const std::string& monitor() const { return monitor_; }
+  std::string_view interned_monitor() const { return interned_; }  // InternMonitorName(monitor())
 
  private:
   std::string model_;
   std::string monitor_;
+  std::string_view interned_;
   AlertRule rule_;
   AlertLevel level_ = AlertLevel::kNone;
   int rows_below_clear_ = 0;

@@ -52,6 +52,7 @@
 #include <memory>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "rimwatch/engine/alert.h"
@@ -70,7 +71,7 @@ struct RestrictionRow {
 
 // What one monitor read on one row (armed or not), for logs and charts.
 struct MonitorSample {
-  std::string monitor;  // as in MonitorNames()
+  std::string_view monitor;  // as in MonitorNames() (InternMonitorName: valid for the process)
   MonitorReading reading;
   // The reading differs from this monitor's reading on the model's previous estimated row (in
   // armed, statistic, warn or critical, bit for bit); true on the first row. Block-wise tests
