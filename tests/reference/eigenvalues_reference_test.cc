@@ -22,6 +22,7 @@
 #include "reference_compare.h"
 #include "reference_csv.h"
 #include "rimwatch/engine/eigenvalues.h"
+#include "unit/eigen_match.h"
 
 namespace rimwatch {
 namespace {
@@ -42,28 +43,7 @@ json Load() {
   return json::parse(in);
 }
 
-// Largest distance between the reference eigenvalues and the computed ones, each reference value
-// matched to the nearest computed value not yet used.
-double MatchedDistance(const std::vector<std::complex<double>>& ref, const Eigen::VectorXcd& got) {
-  std::vector<bool> used(static_cast<std::size_t>(got.size()), false);
-  double worst = 0.0;
-  for (const std::complex<double>& r : ref) {
-    double best = INFINITY;
-    Eigen::Index at = -1;
-    for (Eigen::Index i = 0; i < got.size(); ++i) {
-      if (used[static_cast<std::size_t>(i)]) continue;
-      const double d = std::abs(got[i] - r);
-      if (d < best) {
-        best = d;
-        at = i;
-      }
-    }
-    if (at < 0) return INFINITY;
-    used[static_cast<std::size_t>(at)] = true;
-    worst = std::max(worst, best);
-  }
-  return worst;
-}
+using testing::MatchedDistance;
 
 TEST(EigenvaluesReference, AgreesWithLapackDgeev) {
   const json doc = Load();

@@ -14,33 +14,14 @@
 #include <vector>
 
 #include "rimwatch/engine/random.h"
+#include "unit/eigen_match.h"
 
 namespace rimwatch {
 namespace {
 
 constexpr double kEps = std::numeric_limits<double>::epsilon();
 
-// Largest distance after matching each expected value to the nearest unused computed one.
-double MatchedDistance(const Eigen::VectorXcd& want, const Eigen::VectorXcd& got) {
-  std::vector<bool> used(static_cast<std::size_t>(got.size()), false);
-  double worst = 0.0;
-  for (Eigen::Index w = 0; w < want.size(); ++w) {
-    double best = INFINITY;
-    Eigen::Index at = -1;
-    for (Eigen::Index i = 0; i < got.size(); ++i) {
-      if (used[static_cast<std::size_t>(i)]) continue;
-      const double d = std::abs(got[i] - want[w]);
-      if (d < best) {
-        best = d;
-        at = i;
-      }
-    }
-    if (at < 0) return INFINITY;
-    used[static_cast<std::size_t>(at)] = true;
-    worst = std::max(worst, best);
-  }
-  return worst;
-}
+using testing::MatchedDistance;
 
 Eigen::MatrixXd Gaussian(int m, DeterministicRandom* rng) {
   Eigen::MatrixXd a(m, m);
