@@ -125,6 +125,7 @@ struct Server::Impl {
   static constexpr std::size_t kMaxBacklog = 4096;
   std::mutex done_mutex;
   std::vector<RowDone> done;
+  std::vector<std::function<void()>> unsubmitted;  // rows admitted, not yet handed over
   ModelThread model_thread;  // last member: stopped (joined) before the hosts go
 
   // ---- models -------------------------------------------------------------------------------
@@ -402,19 +403,24 @@ struct Server::Impl {
     done.push_back(std::move(d));
   }
 
-  // Poll thread: queues the admitted rows of one host for the model thread.
+  // Poll thread: queues the admitted rows of one host for the model thread. They wait in
+  // `unsubmitted` until SubmitQueued (once per batch of requests read, and before every drain),
+  // so the model thread is woken once per batch rather than once per row.
   void SubmitRows(HostState* state, std::vector<InputRow>& ready) {
-    std::vector<std::function<void()>> tasks;
-    tasks.reserve(ready.size());
     std::int64_t inputs = state->host->inputs() - static_cast<std::int64_t>(ready.size());
     for (InputRow& row : ready) {
       ++inputs;
-      tasks.emplace_back(
+      unsubmitted.emplace_back(
           [this, state, inputs, row = std::move(row)] { RunInput(state, row, inputs); });
     }
     ready.clear();
-    model_thread.Submit(std::move(tasks));
   }
+  void SubmitQueued() {
+    if (unsubmitted.empty()) return;
+    model_thread.Submit(std::move(unsubmitted));
+    unsubmitted.clear();
+  }
+  std::size_t Backlog() const { return model_thread.Backlog() + unsubmitted.size(); }
 
   bool HasDone() {
     std::lock_guard<std::mutex> lock(done_mutex);
@@ -460,6 +466,7 @@ struct Server::Impl {
   // Poll thread: waits for the model thread to finish every queued row, then collects. After it
   // the poll thread may read and change every host.
   Status Drain() {
+    SubmitQueued();
     model_thread.Drain();
     return Collect();
   }
@@ -487,6 +494,7 @@ struct Server::Impl {
     }
     // What the model thread made of rows of the failed group is dropped: the rebuild below
     // starts again from what is committed.
+    SubmitQueued();
     model_thread.Drain();
     {
       std::lock_guard<std::mutex> lock(done_mutex);
@@ -967,7 +975,7 @@ struct Server::Impl {
     zmq::pollitem_t items[] = {{router.handle(), 0, ZMQ_POLLIN, 0}};
     while (!stop.load()) {
       long timeout_ms = 200;
-      if (!store->in_transaction() && (model_thread.Backlog() > 0 || HasDone())) {
+      if (!store->in_transaction() && (Backlog() > 0 || HasDone())) {
         timeout_ms = config.commit_interval_ms;  // results of running models are due
       } else if (store->in_transaction()) {
         const auto left =
@@ -994,8 +1002,9 @@ struct Server::Impl {
           }
           if (!got) break;
           Handle(frames);
-          if (GroupDue() || stop.load() || model_thread.Backlog() >= kMaxBacklog) break;
+          if (GroupDue() || stop.load() || Backlog() >= kMaxBacklog) break;
         }
+        SubmitQueued();
       }
       if (HasDone()) {
         Status st = Collect();
@@ -1003,7 +1012,7 @@ struct Server::Impl {
       }
       if (GroupDue()) Flush(/*drain=*/false);
       // A full model queue: wait (briefly) for the models instead of reading more requests.
-      if (model_thread.Backlog() >= kMaxBacklog) {
+      if (Backlog() >= kMaxBacklog) {
         model_thread.WaitBelow(kMaxBacklog / 2, std::chrono::milliseconds(1));
       }
       Housekeeping();
