@@ -1,5 +1,6 @@
 #include "rimwatch/engine/eigenvalues.h"
 
+#include <algorithm>
 #include <cmath>
 #include <complex>
 #include <vector>
