@@ -331,6 +331,10 @@ TEST(RecordTest, OptionsAndTransactionAreChecked) {
   EXPECT_EQ(RecordRow(*store, model, *monitor, report, bad, "t").message(),
             "record: tests_every = 0: must be >= 1");
   bad = RecordOptions{};
+  bad.full_readings_every = 0;
+  EXPECT_EQ(RecordRow(*store, model, *monitor, report, bad, "t").message(),
+            "record: full_readings_every = 0: must be >= 1");
+  bad = RecordOptions{};
   bad.snapshot_every = -1;
   EXPECT_EQ(RecordRow(*store, model, *monitor, report, bad, "t").code(),
             StatusCode::kInvalidArgument);
