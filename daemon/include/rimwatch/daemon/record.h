@@ -15,7 +15,9 @@
 //     (none on a row whose window cannot be summarised, e.g. rank deficient: its tests record
 //     says why in "estimate");
 //   - alerts: every AlertEvent of the row.
-// RowPayload is also the body of the daemon's per-row `est.<model>` event.
+// The tests record's payload, with the model added (EventBody), is also the body of the daemon's
+// per-row `est.<model>` event when every row has one (events.est_every = 1); otherwise the event
+// carries every reading.
 //
 // Thread safety: none (the store has one owner).
 #pragma once
