@@ -19,6 +19,7 @@
 #include <algorithm>
 #include <atomic>
 #include <chrono>
+#include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
@@ -147,8 +148,17 @@ Figures Feed(const std::string& ingest, const std::string& events, int models,
       ++next;
       ++in_flight;
     }
-    zmq::poll(items, events.empty() ? 1 : 2,
-              std::chrono::milliseconds(rate > 0 && next < n ? 0 : 1000));
+    // Block until a reply or event arrives, or (paced) until the next send is due: a feeder that
+    // spun here would take a core from the daemon on a small machine. Sends due within the same
+    // millisecond go out together.
+    long wait_ms = 1000;
+    if (rate > 0 && next < n && in_flight < static_cast<std::size_t>(window)) {
+      const auto due = t0 + std::chrono::duration_cast<Clock::duration>(
+                                std::chrono::duration<double>(3.0 * static_cast<double>(next) / rate));
+      const double left_ms = std::chrono::duration<double, std::milli>(due - Clock::now()).count();
+      wait_ms = left_ms <= 0 ? 0 : static_cast<long>(std::ceil(left_ms));
+    }
+    zmq::poll(items, events.empty() ? 1 : 2, std::chrono::milliseconds(wait_ms));
     if (items[0].revents & ZMQ_POLLIN) {
       for (;;) {
         std::vector<zmq::message_t> frames;
