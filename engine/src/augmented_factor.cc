@@ -98,9 +98,17 @@ std::vector<int> AugmentedFactor::DeficientColumns(double tol) const {
 }
 
 Eigen::MatrixXd AugmentedFactor::Coefficients() const {
-  const auto r11 = r_.topLeftCorner(k_, k_).triangularView<Eigen::Upper>();
-  Eigen::MatrixXd phi_t = r11.solve(r_.topRightCorner(k_, n_));
-  return phi_t.transpose();
+  Eigen::MatrixXd phi;
+  Coefficients(&phi);
+  return phi;
+}
+
+void AugmentedFactor::Coefficients(Eigen::MatrixXd* phi) const {
+  // The solve runs in place on per-thread scratch (what solve() does on its own copy).
+  thread_local Eigen::MatrixXd phi_t;
+  phi_t = r_.topRightCorner(k_, n_);
+  r_.topLeftCorner(k_, k_).triangularView<Eigen::Upper>().solveInPlace(phi_t);
+  *phi = phi_t.transpose();
 }
 
 Eigen::MatrixXd AugmentedFactor::ResidualCrossProduct() const {
@@ -111,7 +119,9 @@ Eigen::MatrixXd AugmentedFactor::ResidualCrossProduct() const {
 void AugmentedFactor::Predict(const Eigen::Ref<const Eigen::VectorXd>& x,
                               const Eigen::Ref<const Eigen::VectorXd>& y, Eigen::VectorXd* v,
                               double* f) const {
-  Eigen::VectorXd u = r_.topLeftCorner(k_, k_).transpose().triangularView<Eigen::Lower>().solve(x);
+  thread_local Eigen::VectorXd u;
+  u = x;
+  r_.topLeftCorner(k_, k_).transpose().triangularView<Eigen::Lower>().solveInPlace(u);
   *f = 1.0 + u.squaredNorm();
   *v = y - r_.topRightCorner(k_, n_).transpose() * u;
 }

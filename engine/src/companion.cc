@@ -25,12 +25,23 @@ bool ModulusOrder(double ma, const std::complex<double>& a, double mb,
 
 }  // namespace
 
-Eigen::MatrixXd CompanionMatrix(const VarSpec& spec, const Eigen::Ref<const Eigen::MatrixXd>& phi) {
+namespace {
+
+// The companion matrix into *f (its storage reused when it has the shape already).
+void FillCompanionMatrix(const VarSpec& spec, const Eigen::Ref<const Eigen::MatrixXd>& phi,
+                         Eigen::MatrixXd* f) {
   const int n = spec.n();
   const int np = n * spec.lags;
-  Eigen::MatrixXd f = Eigen::MatrixXd::Zero(np, np);
-  f.topRows(n) = phi.rightCols(np);
-  if (spec.lags > 1) f.bottomLeftCorner(np - n, np - n).setIdentity();
+  f->setZero(np, np);
+  f->topRows(n) = phi.rightCols(np);
+  if (spec.lags > 1) f->bottomLeftCorner(np - n, np - n).setIdentity();
+}
+
+}  // namespace
+
+Eigen::MatrixXd CompanionMatrix(const VarSpec& spec, const Eigen::Ref<const Eigen::MatrixXd>& phi) {
+  Eigen::MatrixXd f;
+  FillCompanionMatrix(spec, phi, &f);
   return f;
 }
 
@@ -39,10 +50,14 @@ Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eige
   const int n = spec.n();
   const int k = spec.k();
   const int d = spec.num_deterministic();
-  const Eigen::MatrixXd f = CompanionMatrix(spec, phi);
+  // Per-thread scratch: a monitor's row (no gradient) allocates nothing here once warm.
+  thread_local Eigen::MatrixXd f;
+  thread_local Eigen::VectorXcd fast;
+  thread_local std::vector<double> modulus;
+  thread_local std::vector<int> order;
+  FillCompanionMatrix(spec, phi, &f);
   // Eigenvalues only (every row of a monitor): the small Hessenberg QR of eigenvalues.h. With
   // the gradient: Eigen's solver, for the eigenvectors as well (and as the fallback).
-  Eigen::VectorXcd fast;
   const bool quick = !with_gradient && RealEigenvalues(f, &fast);
   Eigen::EigenSolver<Eigen::MatrixXd> es;
   if (!quick) {
@@ -53,9 +68,9 @@ Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eige
   }
   const Eigen::VectorXcd& lambda = quick ? fast : es.eigenvalues();
   const int np = static_cast<int>(lambda.size());
-  std::vector<double> modulus(np);
+  modulus.resize(static_cast<std::size_t>(np));
   for (int i = 0; i < np; ++i) modulus[i] = std::abs(lambda[i]);
-  std::vector<int> order(np);
+  order.resize(static_cast<std::size_t>(np));
   std::iota(order.begin(), order.end(), 0);
   std::sort(order.begin(), order.end(), [&](int a, int b) {
     return ModulusOrder(modulus[a], lambda[a], modulus[b], lambda[b]);

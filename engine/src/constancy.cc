@@ -451,11 +451,11 @@ void ConstancyMonitor::Fill(ConstancyReading* r) const {
   a.warn = warn_;
   a.clear = warn_;
   const auto e = options_.Evaluations();
-  std::ostringstream text;
-  if (!a.armed) {
-    text << "Parameter constancy (" << ConstancyTestName(options_.test) << "): "
-         << (r->evaluation == 0 ? "waiting for the first block of rows" : r->status.ToString());
-    a.explanation = text.str();
+  if (!a.armed) {  // plain concatenation: a stream costs more than the rest of a quiet row here
+    a.explanation = std::string("Parameter constancy (") + ConstancyTestName(options_.test) +
+                    "): " +
+                    (r->evaluation == 0 ? std::string("waiting for the first block of rows")
+                                        : r->status.ToString());
     return;
   }
   // The full text only where an alert can be raised (armed, at or above warn: alert.cc).
@@ -464,6 +464,7 @@ void ConstancyMonitor::Fill(ConstancyReading* r) const {
                     "): below warn at the latest evaluation.";
     return;
   }
+  std::ostringstream text;
   if (options_.test == ConstancyMonitorOptions::Test::kNyblomHansen) {
     // Every equation has k coefficients, so the largest statistic has the smallest p-value:
     // only that equation's p-value is computed.

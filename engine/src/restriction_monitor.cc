@@ -617,15 +617,24 @@ void RestrictionMonitor::Reset() {
 
 Status RestrictedCoefficients(const VarEstimator& est, const LinearRestriction& restriction,
                               Eigen::MatrixXd* restricted) {
+  Eigen::MatrixXd phi;
+  Status st = est.Coefficients(&phi);
+  if (!st.ok()) return st;
+  return RestrictedCoefficients(est, restriction, phi, restricted);
+}
+
+Status RestrictedCoefficients(const VarEstimator& est, const LinearRestriction& restriction,
+                              const Eigen::MatrixXd& unrestricted, Eigen::MatrixXd* restricted) {
   const int k = est.k();
   const int n = est.n();
   const Eigen::MatrixXd& rm = restriction.r_matrix;
   if (rm.cols() != n * k || restriction.r_value.size() != rm.rows()) {
     return Status::InvalidArgument("restricted coefficients: R must be q x (n k), r of size q");
   }
-  Eigen::MatrixXd phi;
-  Status st = est.Coefficients(&phi);
-  if (!st.ok()) return st;
+  if (unrestricted.rows() != n || unrestricted.cols() != k) {
+    return Status::InvalidArgument("restricted coefficients: the coefficients must be n x k");
+  }
+  Eigen::MatrixXd phi = unrestricted;
   const auto r11 = est.factor().R().topLeftCorner(k, k).triangularView<Eigen::Upper>();
   const Eigen::Index q = rm.rows();
   std::vector<Eigen::MatrixXd> g(static_cast<std::size_t>(n));
@@ -758,7 +767,7 @@ Status RestrictionMonitor::Observe(const VarEstimator& reference, const UpdateRe
       r.departure.noalias() += restriction_.r_matrix.middleCols(i * k, k) * phi.row(i).transpose();
     }
     Eigen::MatrixXd restricted;
-    restricted_status_ = RestrictedCoefficients(reference, restriction_, &restricted);
+    restricted_status_ = RestrictedCoefficients(reference, restriction_, phi, &restricted);
     has_previous_ = restricted_status_.ok();
     if (has_previous_) {
       previous_.resize(static_cast<Eigen::Index>(equations_.size()), k);

@@ -16,12 +16,14 @@ Status RowTransformer::Apply(const Eigen::Ref<const Eigen::VectorXd>& raw, Eigen
   *ready = false;
   if (raw.size() != n) return Status::InvalidArgument("row has the wrong number of values");
   for (Eigen::Index i = 0; i < n; ++i) {
-    std::ostringstream msg;
+    // The message stream only on a refusal: building one per value costs more than the row.
     if (!std::isfinite(raw[i])) {
+      std::ostringstream msg;
       msg << "value of '" << names_[i] << "' is " << raw[i] << "; values must be finite";
       return Status::NonFinite(msg.str());
     }
     if (transforms_[i] == Transform::kLogDiff && !(raw[i] > 0.0)) {
+      std::ostringstream msg;
       msg << "value of '" << names_[i] << "' is " << raw[i]
           << "; transform logdiff needs values > 0";
       return Status::InvalidArgument(msg.str());

@@ -160,7 +160,7 @@ Status VarEstimator::RankStatus() const {
 Status VarEstimator::Coefficients(Eigen::MatrixXd* phi) const {
   Status st = RankStatus();
   if (!st.ok()) return st;
-  *phi = factor_.Coefficients();
+  factor_.Coefficients(phi);
   return Status::Ok();
 }
 

@@ -34,8 +34,11 @@
 #include <zmq.hpp>
 #include <zmq_addon.hpp>
 
+#include "rimwatch/daemon/model_spec_toml.h"
+#include "rimwatch/daemon/record.h"
 #include "rimwatch/daemon/store.h"
 #include "rimwatch/daemon/wire.h"
+#include "rimwatch/engine/monitor.h"
 
 extern char** environ;
 
@@ -44,6 +47,7 @@ namespace {
 using Clock = std::chrono::steady_clock;
 using nlohmann::json;
 namespace fs = std::filesystem;
+using namespace rimwatch;
 using namespace rimwatch::daemon;
 
 struct Figures {
@@ -153,8 +157,9 @@ Figures Feed(const std::string& ingest, const std::string& events, int models,
     // millisecond go out together.
     long wait_ms = 1000;
     if (rate > 0 && next < n && in_flight < static_cast<std::size_t>(window)) {
-      const auto due = t0 + std::chrono::duration_cast<Clock::duration>(
-                                std::chrono::duration<double>(3.0 * static_cast<double>(next) / rate));
+      const auto due =
+          t0 + std::chrono::duration_cast<Clock::duration>(
+                   std::chrono::duration<double>(3.0 * static_cast<double>(next) / rate));
       const double left_ms = std::chrono::duration<double, std::milli>(due - Clock::now()).count();
       wait_ms = left_ms <= 0 ? 0 : static_cast<long>(std::ceil(left_ms));
     }
@@ -215,17 +220,65 @@ Figures Feed(const std::string& ingest, const std::string& events, int models,
   return f;
 }
 
-// The bare baseline: the daemon's socket pattern, decoder and store writes, no engine.
-void BareServer(const std::string& endpoint, const std::string& db, std::atomic<bool>* stop,
+// What rimwatchd writes and publishes for each row message of the one-model run: the records
+// (tests record, snapshot every 100 rows, alerts) and the est event body, made before the timed
+// run by the engine and the record code rimwatchd uses (PrepareRecords, EventBody), so that the
+// "bare + records" baseline writes and sends the same bytes without running the engine.
+struct Recorded {
+  std::vector<RowRecords> rows;  // by row message index
+  std::vector<std::string> est;  // "" when the row has no event (presample rows)
+  std::int64_t model_id = 0;
+};
+
+Recorded PrepareRecorded(const std::string& spec_text,
+                         const std::vector<std::array<double, 3>>& data) {
+  ModelSpec spec;
+  std::unique_ptr<Monitor> monitor;
+  if (!ParseModelSpecToml(spec_text, "bench", &spec).ok() ||
+      !Monitor::Create(spec, &monitor).ok()) {
+    std::fprintf(stderr, "bench: the model spec was refused\n");
+    std::exit(1);
+  }
+  Recorded out;
+  out.rows.resize(data.size());
+  out.est.resize(data.size());
+  const RecordOptions options;  // rimwatchd's defaults
+  for (std::size_t i = 0; i < data.size(); ++i) {
+    const Eigen::Vector3d y(data[i][0], data[i][1], data[i][2]);
+    const RowReport report = monitor->Update(std::to_string(i + 1), y);
+    if (!PrepareRecords(1, *monitor, report, options, &out.rows[i]).ok()) std::exit(1);
+    if (out.rows[i].test) out.est[i] = EventBody(out.rows[i].test->payload_json, spec.name);
+  }
+  return out;
+}
+
+// The bare baseline: the daemon's socket pattern, decoder and store writes, no engine. With
+// `recorded`, also the daemon's per-row records (written in the same group as the row's
+// observations; the model's record cursor set in every group) and its est events on a PUB socket.
+void BareServer(const std::string& endpoint, const std::string& events_endpoint,
+                const std::string& db, Recorded* recorded, std::atomic<bool>* stop,
                 std::atomic<bool>* ready) {
   StoreOptions so;
   so.path = db;
   std::unique_ptr<Store> store;
   if (!Store::Open(so, &store).ok()) std::abort();
+  if (recorded) {
+    Status st = store->Begin();
+    if (st.ok()) st = store->AddModel("m0", "bench", "bench", &recorded->model_id);
+    if (st.ok()) st = store->Commit();
+    if (!st.ok()) {
+      std::fprintf(stderr, "bench: %s\n", st.ToString().c_str());
+      std::exit(1);
+    }
+  }
   zmq::context_t ctx(1);
   zmq::socket_t router(ctx, zmq::socket_type::router);
   router.set(zmq::sockopt::sndhwm, 0);
   router.bind(endpoint);
+  zmq::socket_t pub(ctx, zmq::socket_type::pub);
+  pub.bind(events_endpoint);
+  const std::string est_topic = EstimateTopic("m0");
+  std::int64_t recorded_inputs = 0;
   ready->store(true);
   std::map<std::string, SeriesInfo> series;
   std::vector<std::pair<std::vector<zmq::message_t>, std::optional<std::int64_t>>> pending;
@@ -257,10 +310,24 @@ void BareServer(const std::string& endpoint, const std::string& db, std::atomic<
         PutOutcome outcome;
         store->PutObservation(&it->second, o.period, o.value, o.released_at, "bench", &outcome);
       }
+      if (recorded && req.seq && *req.seq >= 0 &&
+          static_cast<std::size_t>(*req.seq) < recorded->rows.size()) {
+        const std::size_t i = static_cast<std::size_t>(*req.seq);
+        RowRecords& r = recorded->rows[i];
+        if (r.test) r.test->model_id = recorded->model_id;
+        if (r.snapshot) r.snapshot->model_id = recorded->model_id;
+        if (!WriteRecords(*store, recorded->model_id, r, "bench").ok()) std::abort();
+        if (!recorded->est[i].empty()) {
+          pub.send(zmq::buffer(est_topic), zmq::send_flags::sndmore | zmq::send_flags::dontwait);
+          pub.send(zmq::buffer(recorded->est[i]), zmq::send_flags::dontwait);
+        }
+        ++recorded_inputs;
+      }
       pending.emplace_back(std::move(frames), req.seq);
       if (Clock::now() - started >= std::chrono::milliseconds(5)) break;
     }
     if (store->in_transaction() && Clock::now() - started >= std::chrono::milliseconds(5)) {
+      if (recorded) store->SetRecordedInputs(recorded->model_id, recorded_inputs);
       store->Commit();
       for (auto& [env, seq] : pending) {
         for (auto& f : env) router.send(f, zmq::send_flags::sndmore);
@@ -331,8 +398,9 @@ void AddModels(const std::string& ingest, int models, int every) {
   }
 }
 
-void Print(const char* what, const Figures& f, double bare) {
-  std::printf("%-30s acked %8.0f obs/s (%4.2f x bare)", what, f.obs_per_s, f.obs_per_s / bare);
+void Print(const char* what, const Figures& f, double bare, double bare_records) {
+  std::printf("%-30s acked %8.0f obs/s (%4.2f x bare, %4.2f x bare+records)", what, f.obs_per_s,
+              f.obs_per_s / bare, f.obs_per_s / bare_records);
   if (f.run_obs_per_s > 0) std::printf("  run %8.0f obs/s", f.run_obs_per_s);
   std::printf("  ack p50 %6.2f ms  p99 %6.2f ms", f.p50_ms, f.p99_ms);
   if (f.alerts > 0) {
@@ -348,7 +416,7 @@ int main(int argc, char** argv) {
   std::string bin_dir = "build/bin";
   int rows = 60000, window = 2000, every = 100;
   double paced = 30000;
-  std::string cases = "bare,one,many,paced";  // which runs (for profiling one of them)
+  std::string cases = "bare,records,one,many,paced";  // which runs (for profiling one of them)
   std::string extra_config;
   for (int i = 1; i + 1 < argc; i += 2) {
     const std::string k = argv[i];
@@ -382,12 +450,34 @@ int main(int argc, char** argv) {
   if (wanted("bare")) {
     std::atomic<bool> stop{false}, ready{false};
     const std::string ep = "tcp://127.0.0.1:" + std::to_string(port + 2);
-    std::thread server(BareServer, ep, (dir / "bare.sqlite").string(), &stop, &ready);
+    const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(port + 3);
+    std::thread server(BareServer, ep, pub_ep, (dir / "bare.sqlite").string(), nullptr, &stop,
+                       &ready);
     while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
     bare = Feed(ep, "", 1, Simulate(rows, rows, 1), window);
     stop.store(true);
     server.join();
-    Print("bare (decode + store)", bare, bare.obs_per_s);
+  }
+  // The same, plus what rimwatchd writes and publishes per row of the one-model run (its records
+  // and est events, made beforehand by the engine): the same SQLite inserts, no engine.
+  Figures bare_records;
+  bare_records.obs_per_s = std::numeric_limits<double>::quiet_NaN();
+  if (wanted("records")) {
+    const auto data = Simulate(rows, rows / 2, 2);
+    Recorded recorded = PrepareRecorded(SpecText("m0", "m0_", every), data);
+    std::atomic<bool> stop{false}, ready{false};
+    const std::string ep = "tcp://127.0.0.1:" + std::to_string(port + 2);
+    const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(port + 3);
+    std::thread server(BareServer, ep, pub_ep, (dir / "bare_records.sqlite").string(), &recorded,
+                       &stop, &ready);
+    while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
+    bare_records = Feed(ep, "", 1, data, window);
+    stop.store(true);
+    server.join();
+  }
+  if (wanted("bare")) Print("bare (decode + store)", bare, bare.obs_per_s, bare_records.obs_per_s);
+  if (wanted("records")) {
+    Print("bare + records (no engine)", bare_records, bare.obs_per_s, bare_records.obs_per_s);
   }
 
   // Saturated runs (up to `window` requests in flight, as fast as acked), then one model paced at
@@ -418,7 +508,7 @@ int main(int argc, char** argv) {
                            /*until_run=*/true);
     kill(pid, SIGTERM);
     waitpid(pid, nullptr, 0);
-    Print(run.label, f, bare.obs_per_s);
+    Print(run.label, f, bare.obs_per_s, bare_records.obs_per_s);
     if (run.rate > 0) std::printf("%32s(offered %.0f obs/s)\n", "", run.rate);
   }
   fs::remove_all(dir);

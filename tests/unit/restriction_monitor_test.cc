@@ -327,6 +327,14 @@ TEST(RestrictedCoefficients, SolveTheConstrainedLeastSquaresProblem) {
     Eigen::MatrixXd phi;
     const Status st = RestrictedCoefficients(est, *h, &phi);
     ASSERT_TRUE(st.ok()) << st.ToString();
+    // From the coefficients at hand (the monitor's row): the same values to the last bit; the
+    // wrong shape is refused.
+    Eigen::MatrixXd unrestricted, again;
+    ASSERT_TRUE(est.Coefficients(&unrestricted).ok());
+    ASSERT_TRUE(RestrictedCoefficients(est, *h, unrestricted, &again).ok());
+    EXPECT_EQ(again, phi) << h->name;
+    EXPECT_EQ(RestrictedCoefficients(est, *h, unrestricted.leftCols(k - 1), &again).code(),
+              StatusCode::kInvalidArgument);
     // KKT system of min sum |y - Phi x|^2 s.t. R theta = r, solved by Eigen's full-pivot LU:
     //   [2 (I (x) X'X)  R'] [theta ]   [2 vec_eq(X'y_i)]
     //   [R              0 ] [lambda] = [r             ]

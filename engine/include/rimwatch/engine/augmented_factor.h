@@ -44,12 +44,15 @@ class AugmentedFactor {
   static constexpr double kRankTolerance = 1e-10;
 
   // The following REQUIRE full column rank of R11 (DeficientColumns() empty).
-  // Phi (n x k) = (R11^{-1} R12)'.
+  // Phi (n x k) = (R11^{-1} R12)'. The second form writes into *phi (its storage is reused when
+  // it already has the shape) and gives the same values to the last bit.
   Eigen::MatrixXd Coefficients() const;
+  void Coefficients(Eigen::MatrixXd* phi) const;
   // Residual cross-product sum_t w_t e_t e_t' = R22' R22 (n x n); needs no rank condition.
   Eigen::MatrixXd ResidualCrossProduct() const;
   // One-step prediction for a new row before it is folded in:
   //   u = R11^{-T} x,  f = 1 + |u|^2 = 1 + x'(X'WX)^{-1}x,  v = y - Phi x = y - R12' u.
+  // u lives in per-thread scratch, so a warm caller allocates nothing.
   void Predict(const Eigen::Ref<const Eigen::VectorXd>& x,
                const Eigen::Ref<const Eigen::VectorXd>& y, Eigen::VectorXd* v, double* f) const;
 

@@ -304,6 +304,10 @@ ScanThresholds CachedScanThresholds(const ScanDesign& design, double warn_alpha,
 // kRankDeficient when R (I (x) A) R' is singular (redundant rows of R).
 Status RestrictedCoefficients(const VarEstimator& est, const LinearRestriction& restriction,
                               Eigen::MatrixXd* phi);
+// The same from the estimator's unrestricted coefficients already at hand (est.Coefficients,
+// which must have succeeded): saves the second triangular solve on a monitor's row.
+Status RestrictedCoefficients(const VarEstimator& est, const LinearRestriction& restriction,
+                              const Eigen::MatrixXd& unrestricted, Eigen::MatrixXd* phi);
 
 struct RestrictionMonitorOptions {
   // m: reference rows (counted since the reference estimator's reset) before the scan arms; the
