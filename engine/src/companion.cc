@@ -23,10 +23,6 @@ bool ModulusOrder(double ma, const std::complex<double>& a, double mb,
   return a.real() > b.real();
 }
 
-}  // namespace
-
-namespace {
-
 // The companion matrix into *f (its storage reused when it has the shape already).
 void FillCompanionMatrix(const VarSpec& spec, const Eigen::Ref<const Eigen::MatrixXd>& phi,
                          Eigen::MatrixXd* f) {

@@ -615,10 +615,24 @@ void RestrictionMonitor::Reset() {
   scan_ = ChangeScan(scan_.design());
 }
 
+namespace {
+
+Status CheckRestrictionShape(const VarEstimator& est, const LinearRestriction& restriction) {
+  if (restriction.r_matrix.cols() != est.n() * est.k() ||
+      restriction.r_value.size() != restriction.r_matrix.rows()) {
+    return Status::InvalidArgument("restricted coefficients: R must be q x (n k), r of size q");
+  }
+  return Status::Ok();
+}
+
+}  // namespace
+
 Status RestrictedCoefficients(const VarEstimator& est, const LinearRestriction& restriction,
                               Eigen::MatrixXd* restricted) {
+  Status st = CheckRestrictionShape(est, restriction);
+  if (!st.ok()) return st;
   Eigen::MatrixXd phi;
-  Status st = est.Coefficients(&phi);
+  st = est.Coefficients(&phi);
   if (!st.ok()) return st;
   return RestrictedCoefficients(est, restriction, phi, restricted);
 }
@@ -628,9 +642,8 @@ Status RestrictedCoefficients(const VarEstimator& est, const LinearRestriction& 
   const int k = est.k();
   const int n = est.n();
   const Eigen::MatrixXd& rm = restriction.r_matrix;
-  if (rm.cols() != n * k || restriction.r_value.size() != rm.rows()) {
-    return Status::InvalidArgument("restricted coefficients: R must be q x (n k), r of size q");
-  }
+  Status shape = CheckRestrictionShape(est, restriction);
+  if (!shape.ok()) return shape;
   if (unrestricted.rows() != n || unrestricted.cols() != k) {
     return Status::InvalidArgument("restricted coefficients: the coefficients must be n x k");
   }
