@@ -132,6 +132,11 @@ Figures Feed(const std::string& ingest, const std::string& events, int models,
   char buf[512];
   bool health_sent = false, health_back = false;
   double acked_secs = 0;
+  // Paced runs: when row message i is due (3 observations a message).
+  const auto due = [&](std::size_t i) {
+    return t0 + std::chrono::duration_cast<Clock::duration>(
+                    std::chrono::duration<double>(3.0 * static_cast<double>(i) / rate));
+  };
   while (acked < n || (until_run && !health_back)) {
     if (acked == n && until_run && !health_sent) {
       acked_secs = std::chrono::duration<double>(Clock::now() - t0).count();
@@ -141,10 +146,7 @@ Figures Feed(const std::string& ingest, const std::string& events, int models,
     }
     while (next < n && in_flight < static_cast<std::size_t>(window)) {
       if (rate > 0) {
-        const auto due =
-            t0 + std::chrono::duration_cast<Clock::duration>(
-                     std::chrono::duration<double>(3.0 * static_cast<double>(next) / rate));
-        if (Clock::now() < due) break;
+        if (Clock::now() < due(next)) break;
       }
       const int m = static_cast<int>(next % static_cast<std::size_t>(models));
       const long period = static_cast<long>(next / static_cast<std::size_t>(models)) + 1;
@@ -165,10 +167,8 @@ Figures Feed(const std::string& ingest, const std::string& events, int models,
     // millisecond go out together.
     long wait_ms = 1000;
     if (rate > 0 && next < n && in_flight < static_cast<std::size_t>(window)) {
-      const auto due =
-          t0 + std::chrono::duration_cast<Clock::duration>(
-                   std::chrono::duration<double>(3.0 * static_cast<double>(next) / rate));
-      const double left_ms = std::chrono::duration<double, std::milli>(due - Clock::now()).count();
+      const double left_ms =
+          std::chrono::duration<double, std::milli>(due(next) - Clock::now()).count();
       wait_ms = left_ms <= 0 ? 0 : static_cast<long>(std::ceil(left_ms));
     }
     zmq::poll(items, events.empty() ? 1 : 2, std::chrono::milliseconds(wait_ms));
