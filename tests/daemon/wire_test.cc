@@ -15,8 +15,10 @@
 #include <gtest/gtest.h>
 
 #include <Eigen/Core>
+#include <algorithm>
 #include <cmath>
 #include <cstdlib>
+#include <cstring>
 #include <filesystem>
 #include <fstream>
 #include <limits>
@@ -488,6 +490,231 @@ TEST(WireCorpusTest, MutantsOfValidMessages) {
   EXPECT_GT(refused, outcomes.size() / 3);
   EXPECT_LT(refused, outcomes.size());
   WriteLines("mutants.jsonl", outcomes);
+}
+
+// ---- the single-pass data reader (ReadPlainData) against the general decoder
+//
+// Its contract (wire.h): when it reads a message, the request is exactly the general decoder's
+// (same values to the last bit, sign of zero included); otherwise it declines and the general
+// decoder answers. DecodeRequest with fast_path on and off must therefore agree on every message.
+
+bool SameBits(double a, double b) { return std::memcmp(&a, &b, sizeof a) == 0; }
+
+// Returns whether ReadPlainData read `text`; fails the test if the two paths differ.
+bool ExpectSameDecoding(const std::string& text, const DecodeOptions& base = DecodeOptions{}) {
+  DecodeOptions fast = base, general = base;
+  fast.fast_path = true;
+  general.fast_path = false;
+  const Decoded f = Decode(text, fast);
+  const Decoded g = Decode(text, general);
+  Request plain;
+  const bool read = ReadPlainData(text, base, &plain);
+  EXPECT_EQ(f.ok, g.ok) << text;
+  if (read) {
+    EXPECT_TRUE(g.ok) << "the plain reader took a message the general decoder refuses: " << text
+                      << " -> " << g.error.message;
+  }
+  if (f.ok != g.ok) return read;
+  if (!f.ok) {
+    EXPECT_EQ(f.error.code, g.error.code) << text;
+    EXPECT_EQ(f.error.message, g.error.message) << text;
+    EXPECT_EQ(f.request.seq, g.request.seq) << text;
+    return read;
+  }
+  EXPECT_EQ(f.request.type, g.request.type) << text;
+  EXPECT_EQ(f.request.seq, g.request.seq) << text;
+  EXPECT_EQ(f.request.spec_text, g.request.spec_text) << text;
+  EXPECT_EQ(f.request.model, g.request.model) << text;
+  EXPECT_EQ(f.request.observations.size(), g.request.observations.size()) << text;
+  const std::size_t n = std::min(f.request.observations.size(), g.request.observations.size());
+  for (std::size_t i = 0; i < n; ++i) {
+    const Observation& a = f.request.observations[i];
+    const Observation& b = g.request.observations[i];
+    EXPECT_EQ(a.series, b.series) << text << " item " << i;
+    EXPECT_EQ(a.period.kind, b.period.kind) << text << " item " << i;
+    EXPECT_EQ(a.period.key, b.period.key) << text << " item " << i;
+    EXPECT_EQ(a.period.text, b.period.text) << text << " item " << i;
+    EXPECT_TRUE(SameBits(a.value, b.value))
+        << text << " item " << i << ": " << a.value << " vs " << b.value;
+    EXPECT_EQ(a.released_at, b.released_at) << text << " item " << i;
+  }
+  return read;
+}
+
+TEST(WireFastPathTest, CorpusAndMutantsDecodeTheSameBothWays) {
+  std::size_t read = 0, total = 0;
+  for (const CorpusLine& c : ReadCorpus()) {
+    read += ExpectSameDecoding(c.text);
+    ++total;
+    if (c.expect != "ok" || !c.spec.contains("json")) continue;
+    std::vector<json> mutants;
+    Mutants(c.spec["json"], json::json_pointer(), &mutants);
+    for (const json& m : mutants) {
+      read += ExpectSameDecoding(m.dump());
+      read += ExpectSameDecoding(m.dump(2));  // the same with newlines and indentation
+      total += 2;
+    }
+  }
+  // The plain reader takes the valid data messages of the corpus and declines everything else.
+  EXPECT_GT(read, 20u);
+  EXPECT_LT(read, total / 2);
+}
+
+TEST(WireFastPathTest, LimitsAreLeftToTheGeneralDecoder) {
+  DecodeOptions small;
+  small.max_batch_items = 2;
+  const std::string batch3 =
+      R"({"type":"batch","seq":1,"items":[{"series":"a","period":1,"value":1},)"
+      R"({"series":"a","period":2,"value":1},{"series":"a","period":3,"value":1}]})";
+  EXPECT_FALSE(ExpectSameDecoding(batch3, small));
+  EXPECT_EQ(Code(Decode(batch3, small)), "too_large");
+  small.max_batch_items = 3;
+  EXPECT_TRUE(ExpectSameDecoding(batch3, small));
+  small.max_bytes = batch3.size() - 1;
+  EXPECT_FALSE(ExpectSameDecoding(batch3, small));
+  // Integers past 18 digits, a row of 65 series, escapes and non-ASCII text: declined, and the
+  // general decoder gives the answer.
+  EXPECT_FALSE(ExpectSameDecoding(
+      R"({"type":"obs","seq":1,"series":"a","period":1,"value":1234567890123456789})"));
+  EXPECT_TRUE(ExpectSameDecoding(
+      R"({"type":"obs","seq":1,"series":"a","period":1,"value":123456789012345678})"));
+  std::string wide = R"({"type":"row","seq":1,"period":1,"values":{)";
+  for (int i = 0; i < 65; ++i) wide += (i ? ",\"s" : "\"s") + std::to_string(i) + "\":1";
+  wide += "}}";
+  EXPECT_FALSE(ExpectSameDecoding(wide));
+  EXPECT_TRUE(Decode(wide).ok);
+  EXPECT_FALSE(
+      ExpectSameDecoding(R"({"type":"obs","seq":1,"series":"\u0061","period":1,"value":1})"));
+  EXPECT_FALSE(ExpectSameDecoding(
+      "{\"type\":\"obs\",\"seq\":1,\"series\":\"\xc3\xa9\",\"period\":1,\"value\":1}"));
+}
+
+// Random data messages, most of them valid, in random layouts and number spellings, with a
+// random defect now and then. Every one must decode the same both ways.
+TEST(WireFastPathTest, RandomMessagesDecodeTheSameBothWays) {
+  std::mt19937_64 rng(20261204);
+  auto pick = [&](std::size_t n) { return static_cast<std::size_t>(rng() % n); };
+  auto ws = [&]() -> std::string {
+    static const char* const kSpaces[] = {"", "", "", " ", "\n", "\t", "\r\n  ", "  "};
+    return kSpaces[pick(8)];
+  };
+  auto number = [&]() -> std::string {
+    std::uniform_real_distribution<double> u(-1.0, 1.0);
+    char buf[64];
+    switch (pick(12)) {
+      case 0:
+        return std::to_string(static_cast<long long>(rng() % 2000000) - 1000000);
+      case 1:
+        return "-0";
+      case 2:
+        return "-0.0";
+      case 3:
+        std::snprintf(buf, sizeof buf, "%.17g", u(rng) * std::pow(10.0, pick(600) - 300.0));
+        return buf;
+      case 4:
+        std::snprintf(buf, sizeof buf, "%.3e", u(rng) * 1e-310);  // subnormal or zero
+        return buf;
+      case 5:
+        return std::to_string(rng() >> pick(64));  // up to 20 digits
+      case 6:
+        std::snprintf(buf, sizeof buf, "%.6E", u(rng) * 1e5);
+        return buf;
+      case 7:
+        return "1e999";
+      case 8:
+        return pick(2) ? "1.0e+2" : "0.5E-3";
+      default:
+        std::snprintf(buf, sizeof buf, "%.17g", u(rng) * 100.0);
+        return buf;
+    }
+  };
+  auto period = [&]() -> std::string {
+    switch (pick(8)) {
+      case 0:
+        return "\"2026-03-" + std::to_string(1 + pick(31)) + "\"";  // some not zero-padded
+      case 1:
+        return "\"2026-03-31T14:30:0" + std::to_string(pick(10)) + "." +
+               std::to_string(pick(1000)) + "+02:00\"";
+      case 2:
+        return "\"17\"";
+      case 3:
+        return "1.5";
+      case 4:
+        return "\"2026-02-30\"";
+      default:
+        return std::to_string(static_cast<long long>(rng() % 100000) - 50);
+    }
+  };
+  auto name = [&]() -> std::string {
+    static const char* const kNames[] = {"a", "b", "c", "desk.Alpha_1:min-3", "x-y", "a b", ""};
+    return kNames[pick(7)];
+  };
+  auto object = [&](std::vector<std::pair<std::string, std::string>> fields) {
+    std::shuffle(fields.begin(), fields.end(), rng);
+    if (pick(20) == 0 && !fields.empty()) fields.push_back(fields[pick(fields.size())]);  // dup
+    if (pick(25) == 0) fields.emplace_back("extra", "1");
+    if (pick(25) == 0 && !fields.empty()) fields.erase(fields.begin() + pick(fields.size()));
+    std::string out = "{" + ws();
+    for (std::size_t i = 0; i < fields.size(); ++i) {
+      out += (i ? "," + ws() : "") + "\"" + fields[i].first + "\"" + ws() + ":" + ws() +
+             fields[i].second + ws();
+    }
+    return out + "}";
+  };
+  auto release = [&](std::vector<std::pair<std::string, std::string>>* fields) {
+    if (pick(4) == 0) {
+      fields->emplace_back("released_at", pick(5) ? "\"2026-04-02T08:30:00Z\"" : "\"2026-04-02\"");
+    }
+  };
+  auto obs_fields = [&]() {
+    std::vector<std::pair<std::string, std::string>> f = {
+        {"series", "\"" + name() + "\""}, {"period", period()}, {"value", number()}};
+    release(&f);
+    return f;
+  };
+  auto row_fields = [&]() {
+    std::vector<std::pair<std::string, std::string>> values;
+    const std::size_t k = pick(5);
+    for (std::size_t i = 0; i < k; ++i) values.emplace_back(name(), number());
+    std::string v = "{";
+    for (std::size_t i = 0; i < values.size(); ++i) {
+      v += (i ? "," : "") + ws() + "\"" + values[i].first + "\":" + ws() + values[i].second;
+    }
+    v += "}";
+    std::vector<std::pair<std::string, std::string>> f = {{"period", period()}, {"values", v}};
+    release(&f);
+    return f;
+  };
+  std::size_t read = 0;
+  const int kMessages = 20000;
+  for (int m = 0; m < kMessages; ++m) {
+    std::vector<std::pair<std::string, std::string>> top;
+    switch (pick(3)) {
+      case 0:
+        top = obs_fields();
+        top.emplace_back("type", "\"obs\"");
+        break;
+      case 1:
+        top = row_fields();
+        top.emplace_back("type", "\"row\"");
+        break;
+      default: {
+        std::string items = "[";
+        const std::size_t k = 1 + pick(4);
+        for (std::size_t i = 0; i < k; ++i) {
+          items += (i ? "," : "") + ws() + object(pick(2) ? obs_fields() : row_fields());
+        }
+        top.emplace_back("items", items + "]");
+        top.emplace_back("type", "\"batch\"");
+      }
+    }
+    top.emplace_back("seq", pick(30) ? std::to_string(m) : "1.0");
+    const std::string text = ws() + object(top) + ws();
+    read += ExpectSameDecoding(text);
+    if (::testing::Test::HasFailure()) break;  // the first difference is enough to debug
+  }
+  // A good share is valid and plain (the others test the declines).
+  EXPECT_GT(read, static_cast<std::size_t>(kMessages) / 10);
 }
 
 // ---- encoders

@@ -7,14 +7,19 @@
 #include <unordered_set>
 #include <utility>
 
+#include "field_rules.h"
+
 namespace rimwatch::daemon {
 namespace {
 
 using json = nlohmann::ordered_json;
 
-constexpr std::size_t kMaxSeriesName = 128;  // [A-Za-z0-9_.:-], 1..128 characters
-constexpr std::size_t kMaxModelName = 64;    // [A-Za-z0-9_.-], 1..64 (ModelSpec::name)
-constexpr std::size_t kMaxShown = 40;        // bytes of an offending value quoted in a message
+using wire_rules::IsName;
+using wire_rules::kMaxModelName;
+using wire_rules::kMaxSeriesName;
+using wire_rules::LooksLikeInteger;
+
+constexpr std::size_t kMaxShown = 40;  // bytes of an offending value quoted in a message
 constexpr const char* kRequestTypes =
     "obs, row, batch, model.add, model.drop, model.list, state, health";
 
@@ -235,19 +240,6 @@ Parsed ParseJson(std::string_view bytes, JsonScan* scan) {
 
 // ---- field rules
 
-bool IsSeriesChar(char c) {
-  return (c >= 'A' && c <= 'Z') || (c >= 'a' && c <= 'z') || (c >= '0' && c <= '9') || c == '_' ||
-         c == '.' || c == ':' || c == '-';
-}
-
-bool IsName(std::string_view text, std::size_t max_length, bool allow_colon) {
-  if (text.empty() || text.size() > max_length) return false;
-  for (char c : text) {
-    if (!IsSeriesChar(c) || (c == ':' && !allow_colon)) return false;
-  }
-  return true;
-}
-
 bool ReadInt64(const json& v, std::int64_t* out) {
   if (v.is_number_unsigned()) {
     const auto u = v.get<std::uint64_t>();
@@ -260,15 +252,6 @@ bool ReadInt64(const json& v, std::int64_t* out) {
     return true;
   }
   return false;
-}
-
-bool LooksLikeInteger(std::string_view text) {
-  std::size_t i = !text.empty() && text[0] == '-' ? 1 : 0;
-  if (i == text.size()) return false;
-  for (; i < text.size(); ++i) {
-    if (text[i] < '0' || text[i] > '9') return false;
-  }
-  return true;
 }
 
 // ParsePeriod's message without its leading word: `"2026-02-30": day 30 is outside ...`.
@@ -651,6 +634,7 @@ bool DecodeRequest(std::string_view bytes, const DecodeOptions& options, Request
                      std::to_string(options.max_bytes) + " are accepted";
     return false;
   }
+  if (options.fast_path && ReadPlainData(bytes, options, request)) return true;
   JsonScan scan;
   Parsed parsed = ParseJson(bytes, &scan);
   // The seq, when it was read and is not ambiguous, is echoed whatever goes wrong next.

@@ -97,12 +97,23 @@ struct Request {
 struct DecodeOptions {
   std::size_t max_bytes = 1 << 20;       // messages above this are refused (too_large) unparsed
   std::size_t max_batch_items = 100000;  // a batch with more items is refused (too_large)
+  // Try ReadPlainData first (the daemon's hot path); false: the general decoder only (tests
+  // compare the two).
+  bool fast_path = true;
 };
 
 // Decodes and validates one request. On failure *error is set, and request->seq holds the seq if
 // it could be read (so the reply can echo it).
 bool DecodeRequest(std::string_view bytes, const DecodeOptions& options, Request* request,
                    WireError* error);
+
+// The single-pass reader of plain data requests (src/wire/data_reader.cc): obs, row and batch
+// messages with only their own fields, strings of printable ASCII without escapes, integers of at
+// most 18 digits and rows of at most 64 series, read without building a document. True: *request
+// is exactly what the general decoder makes of the bytes, and it would accept them. False: it
+// declines (anything else, valid or not; *request is reset) and DecodeRequest's general decoder
+// decides, so verdicts and error messages never depend on which reader ran.
+bool ReadPlainData(std::string_view bytes, const DecodeOptions& options, Request* request);
 
 // Replies. The members of `result` follow "seq" and "ok" in the reply object; REQUIRES: result
 // is an object without the keys "seq" and "ok" (such keys are dropped; a non-object result is
