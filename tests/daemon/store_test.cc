@@ -4,6 +4,7 @@
 #include "rimwatch/daemon/store.h"
 
 #include <gtest/gtest.h>
+#include <unistd.h>
 
 #include <cmath>
 #include <fstream>
@@ -646,6 +647,85 @@ TEST(StoreTest, NormalSynchronousStoresTheSame) {
   ASSERT_OK(s->Commit());
   SqliteFile f(path);  // a second connection sees the committed rows
   EXPECT_EQ(f.Int("SELECT COUNT(*) FROM observations"), 2000);
+}
+
+// Deferred sync (StoreOptions::deferred_sync): tickets count commits, each becomes durable
+// (WaitDurable, the wake fd), Commit() still returns durable, and the data is the same.
+TEST(StoreTest, DeferredSyncTicketsBecomeDurableInOrder) {
+  const std::string path = FreshDir("store_deferred") + "/log.db";
+  StoreOptions o;
+  o.path = path;
+  o.deferred_sync = true;
+  std::unique_ptr<Store> s;
+  ASSERT_OK(Store::Open(o, &s));
+  ASSERT_GE(s->sync_wake_fd(), 0);
+  SeriesInfo a;
+  std::uint64_t last = 0;
+  for (int g = 0; g < 50; ++g) {
+    ASSERT_OK(s->Begin());
+    if (g == 0) ASSERT_OK(s->EnsureSeries("a", PeriodKind::kInteger, &a));
+    for (int k = 1; k <= 40; ++k) Put(*s, &a, g * 40 + k, k);
+    std::uint64_t ticket = 0;
+    ASSERT_OK(s->CommitDeferred(&ticket));
+    EXPECT_EQ(ticket, last + 1);
+    last = ticket;
+  }
+  ASSERT_OK(s->WaitDurable(last));
+  EXPECT_GE(s->durable_ticket(), last);
+  std::uint64_t woken = 0;
+  EXPECT_EQ(::read(s->sync_wake_fd(), &woken, sizeof woken), static_cast<ssize_t>(sizeof woken));
+  EXPECT_GE(woken, 1u);
+  s->ClearSyncWake();
+  EXPECT_EQ(::read(s->sync_wake_fd(), &woken, sizeof woken), -1);  // cleared, non-blocking
+  // The blocking Commit: durable when it returns.
+  ASSERT_OK(s->Begin());
+  Put(*s, &a, 5000, 1.5);
+  ASSERT_OK(s->Commit());
+  EXPECT_EQ(s->durable_ticket(), last + 1);
+  EXPECT_TRUE(s->sync_status().ok());
+  SqliteFile f(path);
+  EXPECT_EQ(f.Int("SELECT COUNT(*) FROM observations"), 50 * 40 + 1);
+  // Without deferred_sync the same calls work and every ticket is durable at once.
+  std::unique_ptr<Store> plain;
+  StoreOptions p;
+  p.path = FreshDir("store_not_deferred") + "/log.db";
+  ASSERT_OK(Store::Open(p, &plain));
+  EXPECT_EQ(plain->sync_wake_fd(), -1);
+  ASSERT_OK(plain->Begin());
+  std::uint64_t ticket = 0;
+  ASSERT_OK(plain->CommitDeferred(&ticket));
+  EXPECT_EQ(plain->durable_ticket(), ticket);
+}
+
+// A sync that fails is final: the commit is never reported durable and the store takes no
+// more writes. (The WAL file is removed under the store to make fdatasync's stat fail.)
+TEST(StoreTest, DeferredSyncFailureIsFinal) {
+  const std::string path = FreshDir("store_deferred_fail") + "/log.db";
+  StoreOptions o;
+  o.path = path;
+  o.deferred_sync = true;
+  o.background_checkpoint = false;
+  std::unique_ptr<Store> s;
+  ASSERT_OK(Store::Open(o, &s));
+  SeriesInfo a;
+  ASSERT_OK(s->Begin());
+  ASSERT_OK(s->EnsureSeries("a", PeriodKind::kInteger, &a));
+  Put(*s, &a, 1, 1.0);
+  ASSERT_OK(s->Commit());
+  const std::uint64_t durable = s->durable_ticket();
+  ASSERT_EQ(::unlink((path + "-wal").c_str()), 0);
+  ASSERT_OK(s->Begin());
+  Put(*s, &a, 2, 2.0);
+  std::uint64_t ticket = 0;
+  ASSERT_OK(s->CommitDeferred(&ticket));
+  const Status waited = s->WaitDurable(ticket);
+  EXPECT_FALSE(waited.ok());
+  EXPECT_NE(waited.message().find("-wal"), std::string::npos) << waited.ToString();
+  EXPECT_EQ(s->durable_ticket(), durable);
+  EXPECT_FALSE(s->sync_status().ok());
+  const Status again = s->Begin();
+  EXPECT_FALSE(again.ok());
+  EXPECT_EQ(again.message(), waited.message());
 }
 
 }  // namespace

@@ -2,10 +2,15 @@
 // every SQLite failure turned into Status::IoError by SqliteError below.
 #include "rimwatch/daemon/store.h"
 
+#include <fcntl.h>
 #include <sqlite3.h>
+#include <sys/eventfd.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include <array>
+#include <atomic>
+#include <cerrno>
 #include <cmath>
 #include <condition_variable>
 #include <cstring>
@@ -229,10 +234,149 @@ class Checkpointer {
   std::thread thread_;
 };
 
+// Makes committed WAL frames durable off the writer's thread (StoreOptions::deferred_sync).
+// Invariant: durable() == t means fdatasync on the WAL file returned success after the commit
+// with ticket t had returned, so every commit up to t is on disk. The WAL file is opened here
+// (read-only: fdatasync needs no write access on Linux); when it is first opened, or was
+// replaced (another inode under the same name), the directory is synced too, so the file's name
+// survives a power loss. A failed sync is final (PostgreSQL's "fsyncgate" lesson: the kernel may
+// have dropped the dirty pages, so a retry proves nothing).
+class WalSyncer {
+ public:
+  ~WalSyncer() {
+    if (thread_.joinable()) {
+      {
+        std::lock_guard<std::mutex> lock(mutex_);
+        stop_ = true;  // the loop syncs what was requested before it stops
+      }
+      wake_.notify_one();
+      thread_.join();
+    }
+    if (wal_fd_ >= 0) ::close(wal_fd_);
+    if (event_fd_ >= 0) ::close(event_fd_);
+  }
+
+  Status Start(const std::string& db_path) {
+    wal_path_ = db_path + "-wal";
+    const std::size_t slash = db_path.rfind('/');
+    dir_path_ = slash == std::string::npos ? "." : (slash == 0 ? "/" : db_path.substr(0, slash));
+    event_fd_ = ::eventfd(0, EFD_NONBLOCK | EFD_CLOEXEC);
+    if (event_fd_ < 0) return Status::IoError(std::string("eventfd: ") + std::strerror(errno));
+    thread_ = std::thread([this] { Loop(); });
+    return Status::Ok();
+  }
+
+  // Writer thread, after a successful COMMIT.
+  std::uint64_t Committed() {
+    std::uint64_t ticket = 0;
+    {
+      std::lock_guard<std::mutex> lock(mutex_);
+      ticket = ++requested_;
+    }
+    wake_.notify_one();
+    return ticket;
+  }
+
+  std::uint64_t durable() const { return durable_.load(std::memory_order_acquire); }
+  Status status() const {
+    std::lock_guard<std::mutex> lock(mutex_);
+    return failed_;
+  }
+  Status Wait(std::uint64_t ticket) {
+    std::unique_lock<std::mutex> lock(mutex_);
+    done_.wait(lock, [&] { return !failed_.ok() || durable_.load() >= ticket; });
+    return durable_.load() >= ticket ? Status::Ok() : failed_;
+  }
+  int event_fd() const { return event_fd_; }
+  void ClearWake() {
+    std::uint64_t n = 0;
+    while (::read(event_fd_, &n, sizeof n) == static_cast<ssize_t>(sizeof n)) {
+    }
+  }
+
+ private:
+  void Loop() {
+    std::unique_lock<std::mutex> lock(mutex_);
+    for (;;) {
+      wake_.wait(lock, [this] { return stop_ || requested_ > durable_.load(); });
+      if (requested_ == durable_.load() || !failed_.ok()) {
+        if (stop_) return;
+        if (!failed_.ok()) {
+          wake_.wait(lock, [this] { return stop_; });
+          return;
+        }
+        continue;
+      }
+      const std::uint64_t target = requested_;
+      lock.unlock();
+      const Status st = SyncOnce();
+      lock.lock();
+      if (st.ok()) {
+        durable_.store(target, std::memory_order_release);
+      } else {
+        failed_ = st;
+      }
+      done_.notify_all();
+      const std::uint64_t one = 1;
+      [[maybe_unused]] const ssize_t w = ::write(event_fd_, &one, sizeof one);
+    }
+  }
+
+  Status SyncOnce() {
+    struct stat named {};
+    if (::stat(wal_path_.c_str(), &named) != 0) {
+      return Status::IoError("store: WAL file " + wal_path_ + ": " + std::strerror(errno));
+    }
+    if (wal_fd_ >= 0 && (named.st_ino != wal_ino_ || named.st_dev != wal_dev_)) {
+      ::close(wal_fd_);
+      wal_fd_ = -1;
+    }
+    if (wal_fd_ < 0) {
+      wal_fd_ = ::open(wal_path_.c_str(), O_RDONLY | O_CLOEXEC);
+      if (wal_fd_ < 0) {
+        return Status::IoError("store: open " + wal_path_ + ": " + std::strerror(errno));
+      }
+      struct stat opened {};
+      if (::fstat(wal_fd_, &opened) != 0) {
+        return Status::IoError("store: fstat " + wal_path_ + ": " + std::strerror(errno));
+      }
+      wal_ino_ = opened.st_ino;
+      wal_dev_ = opened.st_dev;
+      const int dir = ::open(dir_path_.c_str(), O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+      if (dir < 0 || ::fsync(dir) != 0) {
+        const int e = errno;
+        if (dir >= 0) ::close(dir);
+        return Status::IoError("store: sync directory " + dir_path_ + ": " + std::strerror(e));
+      }
+      ::close(dir);
+    }
+    if (::fdatasync(wal_fd_) != 0) {
+      return Status::IoError("store: fdatasync " + wal_path_ + ": " + std::strerror(errno));
+    }
+    return Status::Ok();
+  }
+
+  std::string wal_path_, dir_path_;
+  int wal_fd_ = -1;
+  ino_t wal_ino_ = 0;
+  dev_t wal_dev_ = 0;
+  int event_fd_ = -1;
+  mutable std::mutex mutex_;
+  std::condition_variable wake_;  // the loop: a request or stop
+  std::condition_variable done_;  // waiters: durable_ advanced or failed_
+  std::uint64_t requested_ = 0;   // the last committed ticket
+  std::atomic<std::uint64_t> durable_{0};
+  Status failed_;
+  bool stop_ = false;
+  std::thread thread_;
+};
+
 struct Store::Impl {
   StoreOptions options;
   sqlite3* db = nullptr;
   std::unique_ptr<Checkpointer> checkpointer;  // writable files with background_checkpoint
+  std::unique_ptr<WalSyncer> syncer;           // writable files with deferred_sync
+  std::uint64_t commits = 0;                   // tickets without a syncer
   int version = 0;
   bool in_transaction = false;
   std::array<sqlite3_stmt*, kSqlCount> sql{};
@@ -244,6 +388,7 @@ struct Store::Impl {
 
   ~Impl() {
     if (in_transaction && db != nullptr) sqlite3_exec(db, "ROLLBACK", nullptr, nullptr, nullptr);
+    syncer.reset();  // syncs what was committed before it stops
     if (checkpointer) sqlite3_wal_hook(db, nullptr, nullptr);
     checkpointer.reset();  // its connection closes first; the writer's close checkpoints the rest
     for (sqlite3_stmt* s : sql) sqlite3_finalize(s);
@@ -339,7 +484,10 @@ Status Store::Impl::ApplyPragmas() {
     return Status::IoError("store: " + options.path + ": journal mode is '" + mode +
                            "', WAL could not be enabled");
   }
-  st = Exec(options.synchronous_full ? "PRAGMA synchronous = FULL" : "PRAGMA synchronous = NORMAL",
+  // deferred_sync: the WalSyncer adds the per-commit sync FULL would do inside COMMIT.
+  const bool sqlite_full =
+      options.synchronous_full && !(options.deferred_sync && !options.read_only);
+  st = Exec(sqlite_full ? "PRAGMA synchronous = FULL" : "PRAGMA synchronous = NORMAL",
             "synchronous");
   if (!st.ok()) return st;
   return Exec("PRAGMA foreign_keys = ON", "foreign_keys");
@@ -521,13 +669,49 @@ Status Store::Open(const StoreOptions& options, std::unique_ptr<Store>* out) {
       impl->checkpointer = std::move(c);
     }
   }
+  if (!options.read_only && options.synchronous_full && options.deferred_sync) {
+    impl->syncer = std::make_unique<WalSyncer>();
+    st = impl->syncer->Start(options.path);
+    if (!st.ok()) return st;
+  }
   out->reset(new Store(std::move(impl)));
   return Status::Ok();
+}
+
+Status Store::CommitDeferred(std::uint64_t* ticket) {
+  if (!impl_->syncer) {
+    Status st = Commit();
+    if (st.ok()) *ticket = ++impl_->commits;
+    return st;
+  }
+  Status st = CommitStep();
+  if (st.ok()) *ticket = impl_->syncer->Committed();
+  return st;
+}
+
+std::uint64_t Store::durable_ticket() const {
+  return impl_->syncer ? impl_->syncer->durable() : impl_->commits;
+}
+
+Status Store::WaitDurable(std::uint64_t ticket) {
+  return impl_->syncer ? impl_->syncer->Wait(ticket) : Status::Ok();
+}
+
+Status Store::sync_status() const { return impl_->syncer ? impl_->syncer->status() : Status::Ok(); }
+
+int Store::sync_wake_fd() const { return impl_->syncer ? impl_->syncer->event_fd() : -1; }
+
+void Store::ClearSyncWake() {
+  if (impl_->syncer) impl_->syncer->ClearWake();
 }
 
 Status Store::Begin() {
   if (impl_->options.read_only) {
     return Status::InvalidArgument("store: Begin: " + impl_->options.path + " is open read-only");
+  }
+  if (impl_->syncer) {
+    Status failed = impl_->syncer->status();
+    if (!failed.ok()) return failed;
   }
   if (impl_->in_transaction) {
     return Status::InvalidArgument("store: Begin: a transaction is already open");
@@ -541,6 +725,14 @@ Status Store::Begin() {
 }
 
 Status Store::Commit() {
+  if (!impl_->syncer) return CommitStep();
+  std::uint64_t ticket = 0;
+  Status st = CommitDeferred(&ticket);
+  if (!st.ok()) return st;
+  return impl_->syncer->Wait(ticket);
+}
+
+Status Store::CommitStep() {
   if (!impl_->in_transaction) {
     return Status::InvalidArgument("store: Commit: no open transaction");
   }

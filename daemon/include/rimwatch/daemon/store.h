@@ -7,7 +7,8 @@
 // alerts (raised and cleared events).
 //
 // Durability: WAL journal; synchronous FULL by default, so a committed transaction is on disk
-// before Commit() returns (rimwatchd acks only after that); NORMAL by option (a power loss may
+// before Commit() returns (rimwatchd acks only once its group is durable: deferred_sync below);
+// NORMAL by option (a power loss may
 // lose the last transactions, an application crash may not). Every statement is prepared once.
 // Writes happen inside Begin() ... Commit(); the caller groups many observations per transaction
 // (group commit).
@@ -23,8 +24,9 @@
 //
 // Errors: Status code kIoError with the SQLite message; kInvalidArgument for a rule broken by
 // the caller (unknown series id, period of the wrong kind, a model name already active).
-// Thread safety: none; one owner (the daemon's poll loop, or one replay). The background
-// checkpointer (StoreOptions) uses its own connection and touches nothing else.
+// Thread safety: none; one owner (the daemon's poll loop, or one replay), except the durability
+// queries marked below. The background checkpointer (StoreOptions) uses its own connection and
+// touches nothing else; the WAL syncer (deferred_sync) only calls fdatasync on the WAL file.
 #pragma once
 
 #include <cstdint>
@@ -47,6 +49,14 @@ struct StoreOptions {
   // Writable files: WAL checkpoints run on a background thread with a second connection instead
   // of inside the commit that crosses 1,000 WAL frames (the writer's commits stay short).
   bool background_checkpoint = true;
+  // Writable files with synchronous_full: the store makes each commit durable itself, with
+  // fdatasync on the WAL file from a thread of its own, and SQLite runs at synchronous = NORMAL.
+  // The caller can then write the next group while the disk works (CommitDeferred); Commit()
+  // still returns only once its transaction is on disk. The guarantee is FULL's: in WAL mode FULL
+  // syncs the WAL at each commit, NORMAL syncs it before each checkpoint and the database file
+  // after; this adds the per-commit sync (and a sync of the directory when the WAL file is first
+  // seen), done after COMMIT instead of inside it.
+  bool deferred_sync = false;
 };
 
 enum class PutOutcome { kNew, kDuplicate, kRevision, kLate };
@@ -115,6 +125,22 @@ class Store {
   Status Rollback();
   bool in_transaction() const;
 
+  // Group commit without waiting for the disk (StoreOptions::deferred_sync). CommitDeferred
+  // commits like Commit() and sets *ticket; the transaction is durable once durable_ticket()
+  // >= *ticket. Tickets grow by one per commit. Without deferred_sync it is Commit() and the
+  // ticket is durable at once. sync_wake_fd() (deferred_sync only, else -1) is an eventfd that
+  // turns readable when durable_ticket() advances or a sync fails; ClearSyncWake() resets it.
+  // sync_status() is the first failed fdatasync (kIoError): it is final; nothing committed
+  // after it is reported durable, and Begin() refuses with it. WaitDurable blocks until the
+  // ticket is durable or a sync failed. durable_ticket(), sync_status() and WaitDurable are safe
+  // from any thread; the rest belongs to the store's owner.
+  Status CommitDeferred(std::uint64_t* ticket);
+  std::uint64_t durable_ticket() const;
+  Status WaitDurable(std::uint64_t ticket);
+  Status sync_status() const;
+  int sync_wake_fd() const;
+  void ClearSyncWake();
+
   // Series. FindSeries: *out empty when unknown. EnsureSeries creates the series with `kind` if
   // new; an existing series of another kind is kInvalidArgument
   // ("series b holds date periods, got integer").
@@ -163,6 +189,7 @@ class Store {
  private:
   struct Impl;
   explicit Store(std::unique_ptr<Impl> impl);
+  Status CommitStep();  // COMMIT (a failure rolls back), no waiting for a deferred sync
   std::unique_ptr<Impl> impl_;
 };
 
