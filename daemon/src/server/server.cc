@@ -8,6 +8,7 @@
 #include <chrono>
 #include <cstdint>
 #include <ctime>
+#include <deque>
 #include <filesystem>
 #include <fstream>
 #include <functional>
@@ -85,6 +86,14 @@ struct PendingReply {
   DataCounts counts;  // the reply of a data request, sent once its group commits
 };
 
+// A committed group waiting for the disk (Store::CommitDeferred): its acks and events go out,
+// in commit order, once the store reports the ticket durable.
+struct SyncingGroup {
+  std::uint64_t ticket = 0;
+  std::vector<PendingReply> replies;
+  std::vector<std::pair<std::string, std::string>> events;  // topic, body
+};
+
 }  // namespace
 
 struct Server::Impl {
@@ -103,6 +112,7 @@ struct Server::Impl {
   // The open group: acks and events wait for its commit.
   std::vector<PendingReply> pending;
   std::vector<std::pair<std::string, std::string>> events;  // topic, body
+  std::deque<SyncingGroup> syncing;  // committed, not yet durable (oldest first)
   std::int64_t pending_obs = 0;
   Clock::time_point group_started;
   std::int64_t commits = 0;
@@ -246,6 +256,7 @@ struct Server::Impl {
     StoreOptions so;
     so.path = (data_dir / "rimwatch.sqlite").string();
     so.synchronous_full = config.synchronous_full;
+    so.deferred_sync = true;  // the poll loop reads the next group while the disk syncs this one
     Status st = Store::Open(so, &store);
     if (!st.ok()) return st;
 
@@ -341,15 +352,59 @@ struct Server::Impl {
     }
   }
 
+  // Events go out in the order they were queued: behind any group still waiting for the disk.
   void PublishEvents() {
-    for (auto& [topic, body] : events) {
+    if (!syncing.empty()) {
+      auto& tail = syncing.back().events;
+      tail.insert(tail.end(), std::make_move_iterator(events.begin()),
+                  std::make_move_iterator(events.end()));
+      events.clear();
+      return;
+    }
+    Publish(events);
+  }
+  void Publish(std::vector<std::pair<std::string, std::string>>& list) {
+    for (auto& [topic, body] : list) {
       try {
         pub.send(zmq::buffer(topic), zmq::send_flags::sndmore | zmq::send_flags::dontwait);
         pub.send(zmq::buffer(body), zmq::send_flags::dontwait);
       } catch (const zmq::error_t&) {
       }
     }
-    events.clear();
+    list.clear();
+  }
+
+  // Sends the acks and events of every group the store reports durable, oldest first.
+  void ReleaseDurable() {
+    const std::uint64_t durable = store->durable_ticket();
+    while (!syncing.empty() && syncing.front().ticket <= durable) {
+      SyncingGroup& g = syncing.front();
+      for (PendingReply& p : g.replies) SendReply(p.envelope, EncodeDataOk(p.seq, p.counts));
+      Publish(g.events);
+      syncing.pop_front();
+    }
+  }
+  // Blocks until every committed group is durable and sends their acks and events.
+  Status SettleDurable() {
+    if (syncing.empty()) return Status::Ok();
+    Status st = store->WaitDurable(syncing.back().ticket);
+    if (st.ok()) ReleaseDurable();
+    return st;
+  }
+  // The disk refused a sync: what waits for it can never be acknowledged. rimwatchd stops
+  // without acking it; senders resend after a restart (a value already stored is acked as a
+  // duplicate, not stored twice).
+  Status StopUndurable(const Status& why) {
+    spdlog::critical(
+        "rimwatchd stopping: the store cannot make data durable ({}); {} "
+        "acknowledgements withheld",
+        why.ToString(), WaitingAcks());
+    return why;
+  }
+  std::size_t WaitingAcks() const {
+    std::size_t n = pending.size();
+    for (const SyncingGroup& g : syncing) n += g.replies.size();
+    return n;
   }
 
   void Refuse(std::vector<zmq::message_t>& envelope, const std::optional<std::int64_t>& seq,
@@ -587,16 +642,19 @@ struct Server::Impl {
       st = store->SetRecordedInputs(state->host->id(), state->taken_inputs);
       if (!st.ok()) return FailGroup(st);
     }
-    st = store->Commit();
+    std::uint64_t ticket = 0;
+    st = store->CommitDeferred(&ticket);
     if (!st.ok()) return FailGroup(st);
     ++commits;
     for (auto& state : hosts) {
       if (!state->cursor_frozen) state->stored_inputs = state->taken_inputs;
     }
-    for (PendingReply& p : pending) SendReply(p.envelope, EncodeDataOk(p.seq, p.counts));
+    // Acks and events wait for the disk (ReleaseDurable); the loop reads on meanwhile.
+    syncing.push_back(SyncingGroup{ticket, std::move(pending), std::move(events)});
     pending.clear();
+    events.clear();
     pending_obs = 0;
-    PublishEvents();
+    ReleaseDurable();
   }
 
   // ---- requests -----------------------------------------------------------------------------
@@ -763,7 +821,12 @@ struct Server::Impl {
   }
 
   void HandleControl(std::vector<zmq::message_t>& envelope, Request& req) {
-    Flush(/*drain=*/true);  // control requests see every acknowledged observation, run
+    // Control requests see every acknowledged observation, run, and are answered after the acks
+    // and events of everything read before them.
+    Flush(/*drain=*/true);
+    if (Status st = SettleDurable(); !st.ok()) {
+      return Refuse(envelope, req.seq, {ErrorCode::kStorage, st.ToString()});
+    }
     switch (req.type) {
       case RequestType::kHealth:
         return SendReply(envelope, EncodeOk(req.seq, HealthJson()));
@@ -923,7 +986,7 @@ struct Server::Impl {
         {"rejects", rej},
         {"models", ModelListJson(true)},
         {"database_bytes", store->FileBytes()},
-        {"pending_acks", static_cast<std::int64_t>(pending.size())},
+        {"pending_acks", static_cast<std::int64_t>(WaitingAcks())},
     };
   }
 
@@ -972,22 +1035,33 @@ struct Server::Impl {
   }
 
   Status Run(const std::atomic<bool>& stop) {
-    zmq::pollitem_t items[] = {{router.handle(), 0, ZMQ_POLLIN, 0}};
+    // The second item: the store's eventfd, readable when a committed group became durable.
+    const int sync_fd = store->sync_wake_fd();
+    zmq::pollitem_t items[] = {{router.handle(), 0, ZMQ_POLLIN, 0},
+                               {nullptr, sync_fd, ZMQ_POLLIN, 0}};
+    const int n_items = sync_fd >= 0 ? 2 : 1;
     while (!stop.load()) {
       long timeout_ms = 200;
       if (!store->in_transaction() && (Backlog() > 0 || HasDone())) {
         timeout_ms = config.commit_interval_ms;  // results of running models are due
       } else if (store->in_transaction()) {
+        // Rounded up: a poll with timeout 0 in the last millisecond would spin on a core.
         const auto left =
             group_started + std::chrono::milliseconds(config.commit_interval_ms) - Clock::now();
-        timeout_ms =
-            std::max<long>(0, std::chrono::duration_cast<std::chrono::milliseconds>(left).count());
+        timeout_ms = std::max<long>(0, std::chrono::ceil<std::chrono::milliseconds>(left).count());
       }
       try {
-        zmq::poll(items, 1, std::chrono::milliseconds(timeout_ms));
+        zmq::poll(items, n_items, std::chrono::milliseconds(timeout_ms));
       } catch (const zmq::error_t& e) {
         if (e.num() == EINTR) continue;
         return Status::IoError(std::string("poll: ") + e.what());
+      }
+      if (n_items == 2 && (items[1].revents & ZMQ_POLLIN)) {
+        store->ClearSyncWake();
+        ReleaseDurable();
+      }
+      if (Status synced = store->sync_status(); !synced.ok()) {
+        return StopUndurable(synced);
       }
       if (items[0].revents & ZMQ_POLLIN) {
         for (;;) {
@@ -1017,8 +1091,9 @@ struct Server::Impl {
       }
       Housekeeping();
     }
-    spdlog::info("rimwatchd stopping: committing {} waiting requests", pending.size());
+    spdlog::info("rimwatchd stopping: committing {} waiting requests", WaitingAcks());
     Flush(/*drain=*/true);
+    if (Status synced = SettleDurable(); !synced.ok()) return StopUndurable(synced);
     PublishEvents();
     router.close();
     pub.close();
