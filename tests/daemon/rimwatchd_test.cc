@@ -462,6 +462,41 @@ TEST(Rimwatchd, SigtermSendsEveryPendingAckAndExitsZero) {
   EXPECT_EQ(again.Terminate(), 0);
 }
 
+// Acks wait for the store's sync on its own thread while the poll loop reads on; a control
+// request still answers after the acks of everything sent before it, and sees it all run.
+TEST(Rimwatchd, ControlRepliesFollowTheAcksOfEarlierData) {
+  const auto dir = FreshDir("order");
+  Daemon d(dir);
+  d.Start();
+  Client client(d.ingest());
+  ASSERT_TRUE(client.Call({{"type", "model.add"}, {"spec", kSpec}})["ok"].get<bool>());
+  const Scenario s = MakeScenario(400, 5);
+  for (int round = 0; round < 4; ++round) {
+    const std::size_t from = s.rows.size() * static_cast<std::size_t>(round) / 4;
+    const std::size_t to = s.rows.size() * static_cast<std::size_t>(round + 1) / 4;
+    for (std::size_t t = from; t < to; ++t) {
+      client.Send(RowMessage(static_cast<std::int64_t>(t + 1), static_cast<std::int64_t>(t + 1),
+                             s.rows[t][0], s.rows[t][1]));
+    }
+    client.Send(json{{"type", "health"}, {"seq", -1 - round}});
+    std::size_t acks = 0;
+    for (;;) {
+      const auto r = client.Receive(30000);
+      ASSERT_TRUE(r.has_value()) << "no reply; " << acks << " acks so far";
+      ASSERT_TRUE((*r)["ok"].get<bool>()) << r->dump();
+      if ((*r)["seq"].get<std::int64_t>() < 0) {
+        EXPECT_EQ((*r)["seq"].get<std::int64_t>(), -1 - round);
+        EXPECT_EQ(acks, to - from) << "the health reply overtook data acks";
+        EXPECT_EQ((*r)["pending_acks"].get<std::int64_t>(), 0);
+        EXPECT_EQ((*r)["models"][0]["rows"].get<std::int64_t>(), static_cast<std::int64_t>(to) - 1);
+        break;
+      }
+      ++acks;
+    }
+  }
+  EXPECT_EQ(d.Terminate(), 0) << d.log();
+}
+
 TEST(Rimwatchd, ModelsAreAddedListedAndDropped) {
   const auto dir = FreshDir("models");
   Daemon d(dir);
