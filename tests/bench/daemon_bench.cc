@@ -30,6 +30,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <deque>
 #include <filesystem>
 #include <fstream>
 #include <limits>
@@ -260,7 +261,9 @@ Recorded PrepareRecorded(const std::string& spec_text,
   return out;
 }
 
-// The bare baseline: the daemon's socket pattern, decoder and store writes, no engine. With
+// The bare baseline: the daemon's socket pattern, decoder and store writes, no engine. Its store
+// is opened as rimwatchd opens it (deferred sync: a group's acks go out once the store's own
+// thread has synced it, while the loop reads on). With
 // `recorded`, also the daemon's per-row records (written in the same group as the row's
 // observations; the model's record cursor set in every group) and its est events on a PUB socket.
 void BareServer(const std::string& endpoint, const std::string& events_endpoint,
@@ -268,6 +271,7 @@ void BareServer(const std::string& endpoint, const std::string& events_endpoint,
                 std::atomic<bool>* ready) {
   StoreOptions so;
   so.path = db;
+  so.deferred_sync = true;  // as rimwatchd (server.cc)
   std::unique_ptr<Store> store;
   if (!Store::Open(so, &store).ok()) std::abort();
   if (recorded) {
@@ -289,11 +293,29 @@ void BareServer(const std::string& endpoint, const std::string& events_endpoint,
   std::int64_t recorded_inputs = 0;
   ready->store(true);
   std::map<std::string, SeriesInfo> series;
-  std::vector<std::pair<std::vector<zmq::message_t>, std::optional<std::int64_t>>> pending;
+  using Acks = std::vector<std::pair<std::vector<zmq::message_t>, std::optional<std::int64_t>>>;
+  Acks pending;
+  std::deque<std::pair<std::uint64_t, Acks>> syncing;  // committed groups waiting for the disk
+  const auto release = [&] {
+    const std::uint64_t durable = store->durable_ticket();
+    while (!syncing.empty() && syncing.front().first <= durable) {
+      for (auto& [env, seq] : syncing.front().second) {
+        for (auto& f : env) router.send(f, zmq::send_flags::sndmore);
+        const std::string reply = EncodeOk(seq);
+        router.send(zmq::buffer(reply), zmq::send_flags::none);
+      }
+      syncing.pop_front();
+    }
+  };
   Clock::time_point started;
-  zmq::pollitem_t items[] = {{router.handle(), 0, ZMQ_POLLIN, 0}};
+  zmq::pollitem_t items[] = {{router.handle(), 0, ZMQ_POLLIN, 0},
+                             {nullptr, store->sync_wake_fd(), ZMQ_POLLIN, 0}};
   while (!stop->load()) {
-    zmq::poll(items, 1, std::chrono::milliseconds(store->in_transaction() ? 1 : 50));
+    zmq::poll(items, 2, std::chrono::milliseconds(store->in_transaction() ? 1 : 50));
+    if (items[1].revents & ZMQ_POLLIN) {
+      store->ClearSyncWake();
+      release();
+    }
     for (;;) {
       std::vector<zmq::message_t> frames;
       if (!zmq::recv_multipart(router, std::back_inserter(frames), zmq::recv_flags::dontwait)) {
@@ -336,13 +358,11 @@ void BareServer(const std::string& endpoint, const std::string& events_endpoint,
     }
     if (store->in_transaction() && Clock::now() - started >= std::chrono::milliseconds(5)) {
       if (recorded) store->SetRecordedInputs(recorded->model_id, recorded_inputs);
-      store->Commit();
-      for (auto& [env, seq] : pending) {
-        for (auto& f : env) router.send(f, zmq::send_flags::sndmore);
-        const std::string reply = EncodeOk(seq);
-        router.send(zmq::buffer(reply), zmq::send_flags::none);
-      }
+      std::uint64_t ticket = 0;
+      if (!store->CommitDeferred(&ticket).ok()) std::abort();
+      syncing.emplace_back(ticket, std::move(pending));
       pending.clear();
+      release();
     }
   }
 }
