@@ -19,14 +19,18 @@ namespace {
 using testing::FreshDir;
 using testing::SqliteFile;
 
+std::unique_ptr<Store> OpenWith(const StoreOptions& options) {
+  std::unique_ptr<Store> s;
+  const Status st = Store::Open(options, &s);
+  EXPECT_TRUE(st.ok()) << st.ToString();
+  return s;
+}
+
 std::unique_ptr<Store> OpenStore(const std::string& path, bool read_only = false) {
   StoreOptions o;
   o.path = path;
   o.read_only = read_only;
-  std::unique_ptr<Store> s;
-  const Status st = Store::Open(o, &s);
-  EXPECT_TRUE(st.ok()) << st.ToString();
-  return s;
+  return OpenWith(o);
 }
 
 Status TryOpen(const std::string& path, bool read_only = false) {
@@ -635,11 +639,8 @@ TEST(StoreTest, BadFilesAreRefusedClearly) {
 
 TEST(StoreTest, NormalSynchronousStoresTheSame) {
   const std::string path = FreshDir("store_normal") + "/log.db";
-  StoreOptions o;
-  o.path = path;
-  o.synchronous_full = false;
-  std::unique_ptr<Store> s;
-  ASSERT_OK(Store::Open(o, &s));
+  auto s = OpenWith({.path = path, .synchronous_full = false});
+  ASSERT_TRUE(s);
   ASSERT_OK(s->Begin());
   SeriesInfo a;
   ASSERT_OK(s->EnsureSeries("a", PeriodKind::kInteger, &a));
@@ -653,11 +654,8 @@ TEST(StoreTest, NormalSynchronousStoresTheSame) {
 // (WaitDurable, the wake fd), Commit() still returns durable, and the data is the same.
 TEST(StoreTest, DeferredSyncTicketsBecomeDurableInOrder) {
   const std::string path = FreshDir("store_deferred") + "/log.db";
-  StoreOptions o;
-  o.path = path;
-  o.deferred_sync = true;
-  std::unique_ptr<Store> s;
-  ASSERT_OK(Store::Open(o, &s));
+  auto s = OpenWith({.path = path, .deferred_sync = true});
+  ASSERT_TRUE(s);
   ASSERT_GE(s->sync_wake_fd(), 0);
   SeriesInfo a;
   std::uint64_t last = 0;
@@ -686,10 +684,8 @@ TEST(StoreTest, DeferredSyncTicketsBecomeDurableInOrder) {
   SqliteFile f(path);
   EXPECT_EQ(f.Int("SELECT COUNT(*) FROM observations"), 50 * 40 + 1);
   // Without deferred_sync the same calls work and every ticket is durable at once.
-  std::unique_ptr<Store> plain;
-  StoreOptions p;
-  p.path = FreshDir("store_not_deferred") + "/log.db";
-  ASSERT_OK(Store::Open(p, &plain));
+  auto plain = OpenStore(FreshDir("store_not_deferred") + "/log.db");
+  ASSERT_TRUE(plain);
   EXPECT_EQ(plain->sync_wake_fd(), -1);
   ASSERT_OK(plain->Begin());
   std::uint64_t ticket = 0;
@@ -701,12 +697,8 @@ TEST(StoreTest, DeferredSyncTicketsBecomeDurableInOrder) {
 // more writes. (The WAL file is removed under the store to make fdatasync's stat fail.)
 TEST(StoreTest, DeferredSyncFailureIsFinal) {
   const std::string path = FreshDir("store_deferred_fail") + "/log.db";
-  StoreOptions o;
-  o.path = path;
-  o.deferred_sync = true;
-  o.background_checkpoint = false;
-  std::unique_ptr<Store> s;
-  ASSERT_OK(Store::Open(o, &s));
+  auto s = OpenWith({.path = path, .background_checkpoint = false, .deferred_sync = true});
+  ASSERT_TRUE(s);
   SeriesInfo a;
   ASSERT_OK(s->Begin());
   ASSERT_OK(s->EnsureSeries("a", PeriodKind::kInteger, &a));
