@@ -37,6 +37,7 @@
 #include <map>
 #include <nlohmann/json.hpp>
 #include <random>
+#include <sstream>
 #include <string>
 #include <thread>
 #include <vector>
@@ -367,6 +368,50 @@ void BareServer(const std::string& endpoint, const std::string& events_endpoint,
   }
 }
 
+// CPU seconds (user + system) of each thread of a process, by thread name (/proc/PID/task/*:
+// comm, and utime + stime of stat); threads of the same name are summed.
+std::map<std::string, double> ThreadCpu(pid_t pid) {
+  std::map<std::string, double> out;
+  const double tick = static_cast<double>(sysconf(_SC_CLK_TCK));
+  std::error_code ec;
+  for (const auto& task : fs::directory_iterator("/proc/" + std::to_string(pid) + "/task", ec)) {
+    std::string name, stat;
+    std::getline(std::ifstream(task.path() / "comm"), name);
+    std::getline(std::ifstream(task.path() / "stat"), stat);
+    const std::size_t close = stat.rfind(')');  // the name in stat may hold spaces
+    if (name.empty() || close == std::string::npos) continue;
+    std::istringstream fields(stat.substr(close + 2));
+    std::string field;
+    double utime = 0, stime = 0;
+    for (int i = 3; fields >> field; ++i) {  // field 3 is the state; 14 utime, 15 stime
+      if (i == 14) utime = std::stod(field);
+      if (i == 15) {
+        stime = std::stod(field);
+        break;
+      }
+    }
+    out[name] += (utime + stime) / tick;
+  }
+  return out;
+}
+
+// "poll 0.61, rw-model 0.95, ..." : cores used by each thread between two ThreadCpu readings.
+std::string CoresByThread(const std::map<std::string, double>& before,
+                          const std::map<std::string, double>& after, double seconds,
+                          const std::string& main_name) {
+  std::string out;
+  for (const auto& [name, cpu] : after) {
+    const auto it = before.find(name);
+    const double used = (cpu - (it == before.end() ? 0.0 : it->second)) / seconds;
+    if (used < 0.005) continue;
+    char buf[64];
+    std::snprintf(buf, sizeof buf, "%s%s %.2f", out.empty() ? "" : ", ",
+                  name == main_name ? "poll loop" : name.c_str(), used);
+    out += buf;
+  }
+  return out;
+}
+
 pid_t StartDaemon(const std::string& bin_dir, const fs::path& dir, int port,
                   const std::string& extra_config) {
   std::ofstream(dir / "rimwatchd.toml")
@@ -532,12 +577,17 @@ int main(int argc, char** argv) {
     WaitHealthy(ingest);
     AddModels(ingest, models, every);
     const auto data = Simulate(rows, models == 1 ? rows / 2 : rows, 2);
+    const auto cpu_before = ThreadCpu(pid);  // rimwatchd is idle until Feed's first send
     const Figures f = Feed(ingest, models == 1 ? events : "", models, data, window, run.rate,
                            /*until_run=*/true);
+    const auto cpu_after = ThreadCpu(pid);
+    const double fed_secs = 3.0 * static_cast<double>(data.size()) / f.run_obs_per_s;
     kill(pid, SIGTERM);
     waitpid(pid, nullptr, 0);
     Print(run.label, f, bare.obs_per_s, bare_records.obs_per_s);
     if (run.rate > 0) std::printf("%32s(offered %.0f obs/s)\n", "", run.rate);
+    std::printf("%32scores used by rimwatchd's threads: %s\n", "",
+                CoresByThread(cpu_before, cpu_after, fed_secs, "rimwatchd").c_str());
   }
   fs::remove_all(dir);
   std::printf(

@@ -1,5 +1,7 @@
 #include "rimwatch/daemon/model_thread.h"
 
+#include <pthread.h>
+
 #include <utility>
 
 namespace rimwatch::daemon {
@@ -41,6 +43,7 @@ bool ModelThread::WaitBelow(std::size_t n, std::chrono::milliseconds timeout) {
 }
 
 void ModelThread::Loop() {
+  pthread_setname_np(pthread_self(), "rw-model");  // shown by top -H, perf and /proc
   std::unique_lock<std::mutex> lock(mutex_);
   for (;;) {
     work_.wait(lock, [this] { return stop_ || !queue_.empty(); });

@@ -3,6 +3,7 @@
 #include "rimwatch/daemon/store.h"
 
 #include <fcntl.h>
+#include <pthread.h>
 #include <sqlite3.h>
 #include <sys/eventfd.h>
 #include <sys/stat.h>
@@ -187,7 +188,10 @@ class Checkpointer {
       return false;
     }
     sqlite3_busy_timeout(db_, busy_timeout_ms);
-    thread_ = std::thread([this] { Loop(); });
+    thread_ = std::thread([this] {
+      pthread_setname_np(pthread_self(), "rw-checkpoint");
+      Loop();
+    });
     return true;
   }
   ~Checkpointer() {
@@ -262,7 +266,10 @@ class WalSyncer {
     dir_path_ = slash == std::string::npos ? "." : (slash == 0 ? "/" : db_path.substr(0, slash));
     event_fd_ = ::eventfd(0, EFD_NONBLOCK | EFD_CLOEXEC);
     if (event_fd_ < 0) return Status::IoError(std::string("eventfd: ") + std::strerror(errno));
-    thread_ = std::thread([this] { Loop(); });
+    thread_ = std::thread([this] {
+      pthread_setname_np(pthread_self(), "rw-walsync");
+      Loop();
+    });
     return Status::Ok();
   }
 
