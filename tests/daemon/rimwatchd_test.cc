@@ -497,6 +497,46 @@ TEST(Rimwatchd, ControlRepliesFollowTheAcksOfEarlierData) {
   EXPECT_EQ(d.Terminate(), 0) << d.log();
 }
 
+// model.add calibrates a new design on a worker thread: another peer is answered meanwhile, and
+// the adding peer's own pipelined requests wait behind its add, in order, and all succeed.
+TEST(Rimwatchd, ModelAddDoesNotStallOtherPeers) {
+  const auto dir = FreshDir("warmup");
+  Daemon d(dir);
+  d.Start();
+  Client adder(d.ingest());
+  Client other(d.ingest());
+  ASSERT_TRUE(other.Call({{"type", "health"}})["ok"].get<bool>());  // connected
+  const Scenario s = MakeScenario(300, 11);
+  adder.Send(json{{"type", "model.add"}, {"seq", -1}, {"spec", kSpec}});
+  for (std::size_t t = 0; t < s.rows.size(); ++t) {
+    adder.Send(RowMessage(static_cast<std::int64_t>(t + 1), static_cast<std::int64_t>(t + 1),
+                          s.rows[t][0], s.rows[t][1]));
+  }
+  // The first add of this design simulates its scan thresholds (about a second); a health
+  // request of the other peer is answered before that is done.
+  const json health = other.Call({{"type", "health"}});
+  EXPECT_TRUE(health["ok"].get<bool>());
+  EXPECT_TRUE(health["models"].empty()) << health.dump();  // the add has not completed yet
+  const json twice = other.Call({{"type", "model.add"}, {"spec", kSpec}});
+  EXPECT_EQ(twice["code"], "model_exists") << twice.dump();
+  EXPECT_NE(twice["message"].get<std::string>().find("being added"), std::string::npos);
+  const auto added = adder.Receive(60000);
+  ASSERT_TRUE(added.has_value());
+  EXPECT_EQ((*added)["seq"].get<std::int64_t>(), -1) << added->dump();
+  EXPECT_TRUE((*added)["ok"].get<bool>()) << added->dump();
+  for (std::size_t t = 0; t < s.rows.size(); ++t) {
+    const auto r = adder.Receive(30000);
+    ASSERT_TRUE(r.has_value()) << "no ack for row " << t + 1;
+    EXPECT_EQ((*r)["seq"].get<std::int64_t>(), static_cast<std::int64_t>(t + 1));
+    EXPECT_TRUE((*r)["ok"].get<bool>()) << r->dump();
+  }
+  const json after = other.Call({{"type", "health"}});
+  EXPECT_EQ(after["models"][0]["rows"].get<std::int64_t>(),
+            static_cast<std::int64_t>(s.rows.size()) - 1);
+  EXPECT_EQ(adder.Call({{"type", "model.add"}, {"spec", kSpec}})["code"], "model_exists");
+  EXPECT_EQ(d.Terminate(), 0) << d.log();
+}
+
 TEST(Rimwatchd, ModelsAreAddedListedAndDropped) {
   const auto dir = FreshDir("models");
   Daemon d(dir);

@@ -1,5 +1,6 @@
 #include "rimwatch/daemon/server.h"
 
+#include <pthread.h>
 #include <spdlog/spdlog.h>
 #include <sys/stat.h>
 
@@ -12,6 +13,7 @@
 #include <filesystem>
 #include <fstream>
 #include <functional>
+#include <future>
 #include <map>
 #include <mutex>
 #include <optional>
@@ -86,6 +88,17 @@ struct PendingReply {
   DataCounts counts;  // the reply of a data request, sent once its group commits
 };
 
+// A model.add whose engine set-up runs on a worker thread (WarmUp): the first Monitor::Create
+// of a design calibrates its restriction scan by simulation (about a second), and fills the
+// engine's per-design cache, so the add itself, on the poll loop, is then quick.
+struct WarmingAdd {
+  std::vector<zmq::message_t> envelope;
+  Request req;
+  std::string peer;  // Server::Impl::PeerOf
+  std::string name;  // of the model
+  std::future<void> warmed;
+};
+
 // A committed group waiting for the disk (Store::CommitDeferred): its acks and events go out,
 // in commit order, once the store reports the ticket durable.
 struct SyncingGroup {
@@ -113,6 +126,11 @@ struct Server::Impl {
   std::vector<PendingReply> pending;
   std::vector<std::pair<std::string, std::string>> events;  // topic, body
   std::deque<SyncingGroup> syncing;  // committed, not yet durable (oldest first)
+  // model.add requests warming up (oldest first; completed in this order), and the requests of
+  // their peers read meanwhile, held in arrival order: a peer's requests keep their order, other
+  // peers are served while a design calibrates.
+  std::deque<WarmingAdd> warming;
+  std::map<std::string, std::deque<std::vector<zmq::message_t>>> held;  // by peer
   std::int64_t pending_obs = 0;
   Clock::time_point group_started;
   std::int64_t commits = 0;
@@ -846,11 +864,77 @@ struct Server::Impl {
         return SendReply(envelope, EncodeOk(req.seq, result));
       }
       case RequestType::kModelAdd:
-        return AddModel(envelope, req);
+        return StartAdd(envelope, req);
       case RequestType::kModelDrop:
         return DropModel(envelope, req);
       default:
         return Refuse(envelope, req.seq, {ErrorCode::kInternal, "unhandled request type"});
+    }
+  }
+
+  // model.add: the checks that need no engine here, the engine set-up on a worker thread; the add
+  // completes in FinishAdds. This peer's next requests wait behind it.
+  void StartAdd(std::vector<zmq::message_t>& envelope, Request& req) {
+    ModelSpec spec;
+    Status st = ParseModelSpecToml(req.spec_text, "spec", &spec);
+    if (!st.ok()) return Refuse(envelope, req.seq, {ErrorCode::kBadSpec, st.message()});
+    const bool adding = std::any_of(warming.begin(), warming.end(),
+                                    [&](const WarmingAdd& w) { return w.name == spec.name; });
+    if (FindHost(spec.name) || adding) {
+      return Refuse(
+          envelope, req.seq,
+          {ErrorCode::kModelExists, "spec: model \"" + spec.name + "\" is already " +
+                                        (adding ? "being added" : "active (drop it first)")});
+    }
+    WarmingAdd w;
+    w.peer = PeerOf(envelope, envelope.size());
+    w.name = spec.name;
+    w.envelope = std::move(envelope);
+    w.req = std::move(req);
+    w.warmed = std::async(std::launch::async, [spec = std::move(spec)] {
+      pthread_setname_np(pthread_self(), "rw-warmup");
+      std::unique_ptr<Monitor> monitor;
+      try {
+        (void)Monitor::Create(spec, &monitor);  // errors are reported by the add itself
+      } catch (const std::exception&) {
+      }
+    });
+    held.try_emplace(w.peer);
+    warming.push_back(std::move(w));
+  }
+
+  // Completes the model.adds whose warm-up finished, oldest first, then hands their peers' held
+  // requests back to Handle in order (a held model.add starts warming and holds the rest again).
+  // wait: block until every warm-up is done (shutdown).
+  void FinishAdds(bool wait) {
+    while (!warming.empty()) {
+      WarmingAdd& w = warming.front();
+      if (!wait && w.warmed.wait_for(std::chrono::seconds(0)) != std::future_status::ready) {
+        return;
+      }
+      w.warmed.get();
+      WarmingAdd finished = std::move(w);
+      warming.pop_front();
+      Flush(/*drain=*/true);  // as every control request
+      if (Status st = SettleDurable(); !st.ok()) {
+        Refuse(finished.envelope, finished.req.seq, {ErrorCode::kStorage, st.ToString()});
+      } else {
+        AddModel(finished.envelope, finished.req);
+      }
+      if (std::any_of(warming.begin(), warming.end(),
+                      [&](const WarmingAdd& o) { return o.peer == finished.peer; })) {
+        continue;  // its held requests stay behind its next add
+      }
+      auto it = held.find(finished.peer);
+      if (it == held.end()) continue;
+      std::deque<std::vector<zmq::message_t>> queue = std::move(it->second);
+      held.erase(it);
+      while (!queue.empty()) {
+        std::vector<zmq::message_t> frames = std::move(queue.front());
+        queue.pop_front();
+        Handle(frames);  // held again behind a new add of this peer, if one started
+      }
+      SubmitQueued();
     }
   }
 
@@ -990,8 +1074,25 @@ struct Server::Impl {
     };
   }
 
+  // The peer of a request: its ROUTER envelope (routing id and any delimiter frames).
+  static std::string PeerOf(const std::vector<zmq::message_t>& frames, std::size_t n) {
+    std::string peer;
+    for (std::size_t i = 0; i < n; ++i) {
+      peer += frames[i].to_string_view();
+      peer += '\0';
+    }
+    return peer;
+  }
+
   void Handle(std::vector<zmq::message_t>& frames) {
     if (frames.empty()) return;
+    if (!held.empty()) {
+      auto it = held.find(PeerOf(frames, frames.size() - 1));
+      if (it != held.end()) {  // behind this peer's model.add
+        it->second.push_back(std::move(frames));
+        return;
+      }
+    }
     zmq::message_t body = std::move(frames.back());
     frames.pop_back();
     Request req;
@@ -1050,6 +1151,7 @@ struct Server::Impl {
             group_started + std::chrono::milliseconds(config.commit_interval_ms) - Clock::now();
         timeout_ms = std::max<long>(0, std::chrono::ceil<std::chrono::milliseconds>(left).count());
       }
+      if (!warming.empty()) timeout_ms = std::min<long>(timeout_ms, 5);  // FinishAdds looks
       try {
         zmq::poll(items, n_items, std::chrono::milliseconds(timeout_ms));
       } catch (const zmq::error_t& e) {
@@ -1084,12 +1186,17 @@ struct Server::Impl {
         Status st = Collect();
         if (!st.ok()) FailGroup(st);
       }
+      if (!warming.empty()) FinishAdds(/*wait=*/false);
       if (GroupDue()) Flush(/*drain=*/false);
       // A full model queue: wait (briefly) for the models instead of reading more requests.
       if (Backlog() >= kMaxBacklog) {
         model_thread.WaitBelow(kMaxBacklog / 2, std::chrono::milliseconds(1));
       }
       Housekeeping();
+    }
+    if (!warming.empty()) {
+      spdlog::info("rimwatchd stopping: completing {} model.add requests first", warming.size());
+      FinishAdds(/*wait=*/true);
     }
     spdlog::info("rimwatchd stopping: committing {} waiting requests", WaitingAcks());
     Flush(/*drain=*/true);
