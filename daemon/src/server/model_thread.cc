@@ -23,23 +23,26 @@ void ModelThread::Submit(std::vector<std::function<void()>> tasks) {
     std::lock_guard<std::mutex> lock(mutex_);
     for (auto& t : tasks) queue_.push_back(std::move(t));
     unfinished_ += tasks.size();
+    backlog_.store(unfinished_, std::memory_order_relaxed);
   }
   work_.notify_one();
 }
 
 void ModelThread::Drain() {
   std::unique_lock<std::mutex> lock(mutex_);
+  wake_below_ = 1;
   done_.wait(lock, [this] { return unfinished_ == 0; });
+  wake_below_ = 0;
 }
 
-std::size_t ModelThread::Backlog() const {
-  std::lock_guard<std::mutex> lock(mutex_);
-  return unfinished_;
-}
+std::size_t ModelThread::Backlog() const { return backlog_.load(std::memory_order_relaxed); }
 
 bool ModelThread::WaitBelow(std::size_t n, std::chrono::milliseconds timeout) {
   std::unique_lock<std::mutex> lock(mutex_);
-  return done_.wait_for(lock, timeout, [&] { return unfinished_ < n; });
+  wake_below_ = n;
+  const bool below = done_.wait_for(lock, timeout, [&] { return unfinished_ < n; });
+  wake_below_ = 0;
+  return below;
 }
 
 void ModelThread::Loop() {
@@ -55,7 +58,10 @@ void ModelThread::Loop() {
     task = nullptr;  // release what it captured before reporting it finished
     lock.lock();
     --unfinished_;
-    done_.notify_all();
+    backlog_.store(unfinished_, std::memory_order_relaxed);
+    // Only a waiter whose threshold is now met is woken: a wake per task would cost the waiting
+    // poll thread (and this one) a futex call for every row while the queue is full.
+    if (unfinished_ < wake_below_) done_.notify_all();
   }
 }
 

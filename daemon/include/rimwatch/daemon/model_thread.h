@@ -8,9 +8,11 @@
 // runs what is still queued, then joins.
 //
 // Thread safety: Submit, Drain, Backlog and WaitBelow may be called from any one thread (the
-// owner); the tasks run on the model thread.
+// owner); the tasks run on the model thread. Backlog() reads a copy of the count kept beside the
+// lock, so the owner may poll it on every request without contending for the queue.
 #pragma once
 
+#include <atomic>
 #include <chrono>
 #include <condition_variable>
 #include <cstddef>
@@ -46,6 +48,8 @@ class ModelThread {
   std::condition_variable done_;  // a task finished
   std::deque<std::function<void()>> queue_;
   std::size_t unfinished_ = 0;  // queued + running
+  std::size_t wake_below_ = 0;  // the owner waits until unfinished_ < this (0: nobody waits)
+  std::atomic<std::size_t> backlog_{0};  // unfinished_, for Backlog() without the lock
   bool stop_ = false;
   std::thread thread_;  // last: started once the members above exist
 };
