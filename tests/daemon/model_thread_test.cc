@@ -49,7 +49,8 @@ TEST(ModelThreadTest, RunsEveryTaskOnceInOrderAndDrainWaitsForThem) {
       const int id = batch * 40 + i;
       tasks.emplace_back([&seen, id] { seen.push_back(id); });
     }
-    thread.Submit(std::move(tasks));
+    thread.Submit(&tasks);
+    EXPECT_TRUE(tasks.empty());  // taken over, the vector left for the next batch
   }
   thread.Drain();
   EXPECT_EQ(thread.Backlog(), 0u);
@@ -62,7 +63,7 @@ TEST(ModelThreadTest, BacklogCountsQueuedAndRunningTasks) {
   Gate gate;
   std::vector<std::function<void()>> tasks;
   for (int i = 0; i < 10; ++i) tasks.emplace_back([&gate] { gate.Wait(); });
-  thread.Submit(std::move(tasks));
+  thread.Submit(&tasks);
   EXPECT_EQ(thread.Backlog(), 10u);  // one may be running: still counted
   // Nothing can finish while the gate is shut: the wait times out.
   const auto start = Clock::now();
@@ -88,7 +89,7 @@ TEST(ModelThreadTest, WaitBelowWakesWhenItsThresholdIsMet) {
       ++finished;
     });
   }
-  thread.Submit(std::move(tasks));
+  thread.Submit(&tasks);
   // Opening the first gate takes the backlog from 10 to 9 and then stalls on the second gate:
   // WaitBelow(10) must return true well before its (long) timeout, woken by that one finish.
   first.Open();
@@ -109,7 +110,7 @@ TEST(ModelThreadTest, DestructorRunsWhatIsQueued) {
     ModelThread thread;
     std::vector<std::function<void()>> tasks;
     for (int i = 0; i < 100; ++i) tasks.emplace_back([&ran] { ++ran; });
-    thread.Submit(std::move(tasks));
+    thread.Submit(&tasks);
   }
   EXPECT_EQ(ran.load(), 100);
 }

@@ -17,14 +17,15 @@ ModelThread::~ModelThread() {
   thread_.join();
 }
 
-void ModelThread::Submit(std::vector<std::function<void()>> tasks) {
-  if (tasks.empty()) return;
+void ModelThread::Submit(std::vector<std::function<void()>>* tasks) {
+  if (tasks->empty()) return;
   {
     std::lock_guard<std::mutex> lock(mutex_);
-    for (auto& t : tasks) queue_.push_back(std::move(t));
-    unfinished_ += tasks.size();
+    for (auto& t : *tasks) queue_.push_back(std::move(t));
+    unfinished_ += tasks->size();
     backlog_.store(unfinished_, std::memory_order_relaxed);
   }
+  tasks->clear();
   work_.notify_one();
 }
 

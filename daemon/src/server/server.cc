@@ -153,6 +153,7 @@ struct Server::Impl {
   static constexpr std::size_t kMaxBacklog = 4096;
   std::mutex done_mutex;
   std::vector<RowDone> done;
+  std::vector<RowDone> collected;                  // poll thread: Collect's buffer (see there)
   std::vector<std::function<void()>> unsubmitted;  // rows admitted, not yet handed over
   ModelThread model_thread;  // last member: stopped (joined) before the hosts go
 
@@ -490,8 +491,7 @@ struct Server::Impl {
   }
   void SubmitQueued() {
     if (unsubmitted.empty()) return;
-    model_thread.Submit(std::move(unsubmitted));
-    unsubmitted.clear();
+    model_thread.Submit(&unsubmitted);  // leaves it empty, with its capacity
   }
   std::size_t Backlog() const { return model_thread.Backlog() + unsubmitted.size(); }
 
@@ -503,11 +503,18 @@ struct Server::Impl {
   // Poll thread: records and queues what the model thread finished, in the open group (opened
   // here if none is). Returns a storage failure.
   Status Collect() {
-    std::vector<RowDone> batch;
     {
+      // `collected` is empty here and keeps the capacity of earlier rounds, and so does `done`
+      // after the swap: the two buffers trade places, and neither thread grows a fresh vector
+      // (large blocks, allocated on one thread and freed on the other) for every batch of rows.
       std::lock_guard<std::mutex> lock(done_mutex);
-      batch.swap(done);
+      collected.swap(done);
     }
+    const Status st = CollectRows(collected);
+    collected.clear();
+    return st;
+  }
+  Status CollectRows(std::vector<RowDone>& batch) {
     if (batch.empty()) return Status::Ok();
     Status st = EnsureGroup();
     if (!st.ok()) return st;

@@ -31,8 +31,9 @@ class ModelThread {
   ModelThread(const ModelThread&) = delete;
   ModelThread& operator=(const ModelThread&) = delete;
 
-  // Queues tasks (in order) behind those already queued.
-  void Submit(std::vector<std::function<void()>> tasks);
+  // Queues *tasks (in order) behind those already queued and leaves *tasks empty (its capacity
+  // kept, for the caller's next batch).
+  void Submit(std::vector<std::function<void()>>* tasks);
   // Blocks until every task submitted so far has finished.
   void Drain();
   // Tasks submitted and not yet finished.
