@@ -43,8 +43,9 @@ void AugmentedFactor::Fold(const Eigen::Ref<const Eigen::VectorXd>& z) {
     if (zi == 0.0) continue;
     const double rii = r_(i, i);
     const double h = Hypot(rii, zi);
-    const double c = rii / h;
-    const double s = zi / h;
+    const double inv = 1.0 / h;  // one division for both (h > 0: zi != 0)
+    const double c = rii * inv;
+    const double s = zi * inv;
     r_(i, i) = h;
     for (int j = i + 1; j < m; ++j) {
       const double rij = r_(i, j);
@@ -88,13 +89,24 @@ bool AugmentedFactor::Downdate(const Eigen::Ref<const Eigen::VectorXd>& z, doubl
   return true;
 }
 
+bool AugmentedFactor::ColumnDeficient(int j, double tol) const {
+  const double col = r_.col(j).head(j + 1).norm();
+  return col == 0.0 || std::abs(r_(j, j)) <= tol * col;
+}
+
 std::vector<int> AugmentedFactor::DeficientColumns(double tol) const {
   std::vector<int> out;
   for (int j = 0; j < k_; ++j) {
-    const double col = r_.col(j).head(j + 1).norm();
-    if (col == 0.0 || std::abs(r_(j, j)) <= tol * col) out.push_back(j);
+    if (ColumnDeficient(j, tol)) out.push_back(j);
   }
   return out;
+}
+
+bool AugmentedFactor::FullColumnRank(double tol) const {
+  for (int j = 0; j < k_; ++j) {
+    if (ColumnDeficient(j, tol)) return false;
+  }
+  return true;
 }
 
 Eigen::MatrixXd AugmentedFactor::Coefficients() const {

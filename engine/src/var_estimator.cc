@@ -88,7 +88,7 @@ UpdateResult VarEstimator::Update(const Eigen::Ref<const Eigen::VectorXd>& y) {
     const std::int64_t t = rows_estimated_ + 1;
     BuildRegressors(t, z_.head(k_));
     z_.tail(n_) = y;
-    if (rows_estimated_ > 0 && factor_.DeficientColumns().empty()) {
+    if (rows_estimated_ > 0 && factor_.FullColumnRank()) {
       factor_.Predict(z_.head(k_), y, &result.prediction_error, &result.prediction_scale);
       result.has_prediction = true;
     }
@@ -109,8 +109,8 @@ UpdateResult VarEstimator::Update(const Eigen::Ref<const Eigen::VectorXd>& y) {
       case WindowKind::kSliding: {
         factor_.Fold(z_);
         if (buffer_.full()) {
-          const Eigen::VectorXd oldest = buffer_.Row(0);
-          if (!factor_.Downdate(oldest)) refold = true;
+          // The oldest row, read in place (Push overwrites it only afterwards).
+          if (!factor_.Downdate(buffer_.Row(0))) refold = true;
           ++downdates_since_refold_;
         }
         buffer_.Push(z_, t);
@@ -144,8 +144,8 @@ Status VarEstimator::RankStatus() const {
     return Status::NotEnoughRows("no estimation rows yet (need " + std::to_string(spec_.lags + 1) +
                                  " observations for lag order " + std::to_string(spec_.lags) + ")");
   }
+  if (factor_.FullColumnRank()) return Status::Ok();
   const std::vector<int> bad = factor_.DeficientColumns();
-  if (bad.empty()) return Status::Ok();
   std::ostringstream msg;
   msg << "regressor matrix of the window has rank below k = " << k_ << " (" << rows_in_window()
       << " rows); no independent information for ";

@@ -96,6 +96,14 @@ TEST(AugmentedFactorTest, ReportsCollinearAndZeroColumns) {
   AugmentedFactor few(k, n);  // fewer rows than regressors
   few.Fold(z.row(0).transpose());
   EXPECT_EQ(few.DeficientColumns(), std::vector<int>({1, 2}));
+  EXPECT_FALSE(f.FullColumnRank());
+  EXPECT_FALSE(few.FullColumnRank());
+
+  AugmentedFactor full(k, n);  // the same rows without the combination
+  const Eigen::MatrixXd fresh = RandomRows(20, k + n, 6);
+  for (int i = 0; i < fresh.rows(); ++i) full.Fold(fresh.row(i).transpose());
+  EXPECT_TRUE(full.DeficientColumns().empty());
+  EXPECT_TRUE(full.FullColumnRank());
 }
 
 TEST(AugmentedFactorTest, PredictMatchesDirectFormula) {

@@ -41,6 +41,8 @@ class AugmentedFactor {
   // (a column that is, to working accuracy, a combination of earlier ones, or is zero).
   // Empty means R11 has full column rank.
   std::vector<int> DeficientColumns(double tol = kRankTolerance) const;
+  // DeficientColumns(tol).empty(), without building the list (the per-row check).
+  bool FullColumnRank(double tol = kRankTolerance) const;
   static constexpr double kRankTolerance = 1e-10;
 
   // The following REQUIRE full column rank of R11 (DeficientColumns() empty).
@@ -57,6 +59,8 @@ class AugmentedFactor {
                const Eigen::Ref<const Eigen::VectorXd>& y, Eigen::VectorXd* v, double* f) const;
 
  private:
+  bool ColumnDeficient(int j, double tol) const;
+
   int k_;
   int n_;
   Eigen::MatrixXd r_;
