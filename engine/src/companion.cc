@@ -42,7 +42,8 @@ Eigen::MatrixXd CompanionMatrix(const VarSpec& spec, const Eigen::Ref<const Eige
 }
 
 Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eigen::MatrixXd>& phi,
-                                bool with_gradient, CompanionSpectrum* out) {
+                                bool with_gradient, CompanionSpectrum* out,
+                                Eigen::VectorXcd* shifts) {
   const int n = spec.n();
   const int k = spec.k();
   const int d = spec.num_deterministic();
@@ -54,7 +55,10 @@ Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eige
   FillCompanionMatrix(spec, phi, &f);
   // Eigenvalues only (every row of a monitor): the small Hessenberg QR of eigenvalues.h. With
   // the gradient: Eigen's solver, for the eigenvectors as well (and as the fallback).
-  const bool quick = !with_gradient && RealEigenvalues(f, &fast);
+  const bool quick =
+      !with_gradient &&
+      RealEigenvalues(f, &fast, shifts != nullptr && shifts->size() > 0 ? shifts : nullptr);
+  if (quick && shifts != nullptr) *shifts = fast;
   Eigen::EigenSolver<Eigen::MatrixXd> es;
   if (!quick) {
     es.compute(f, with_gradient);

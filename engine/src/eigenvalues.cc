@@ -59,7 +59,10 @@ void ReduceToHessenberg(Square& h, int m, std::vector<double>* v) {
 // Francis double-shift QR on the upper Hessenberg h (EISPACK HQR, eigenvalues only). The active
 // block is rows and columns l..nn; a negligible subdiagonal entry splits it, and each converged
 // 1 x 1 or 2 x 2 trailing block gives one real eigenvalue or a pair.
-bool HessenbergEigenvalues(Square& h, int m, Eigen::VectorXcd* out) {
+// shifts (may be null): approximate eigenvalues of the unscaled matrix, in out's order, for the
+// first step of each deflation (see RealEigenvalues); scale: what h was divided by.
+bool HessenbergEigenvalues(Square& h, int m, const Eigen::VectorXcd* shifts, double scale,
+                           Eigen::VectorXcd* out) {
   double norm = 0.0;  // of the Hessenberg part: the yardstick for an all-zero diagonal pair
   for (int i = 0; i < m; ++i) {
     for (int j = std::max(i - 1, 0); j < m; ++j) norm += std::abs(h(i, j));
@@ -104,6 +107,28 @@ bool HessenbergEigenvalues(Square& h, int m, Eigen::VectorXcd* out) {
         continue;
       }
       if (steps == kMaxSteps) return false;
+      if (steps == 0 && shifts != nullptr) {
+        // The given pair for positions nn-1, nn as the double shift: with sum sigma and product
+        // pi, x = y = sigma / 2 and w = sigma^2 / 4 - pi give the same first column
+        // (x - z)(y - z) - w = z^2 - sigma z + pi as a pair taken from the trailing block.
+        const std::complex<double> g1 = (*shifts)[nn - 1] / scale - shift_total;
+        const std::complex<double> g2 = (*shifts)[nn] / scale - shift_total;
+        double sigma = 0.0, pi = 0.0;
+        bool usable = std::isfinite(std::abs(g1)) && std::isfinite(std::abs(g2));
+        if (usable && g1.imag() == 0.0 && g2.imag() == 0.0) {
+          sigma = g1.real() + g2.real();
+          pi = g1.real() * g2.real();
+        } else if (usable && g1 == std::conj(g2)) {
+          sigma = 2.0 * g1.real();
+          pi = std::norm(g1);
+        } else {
+          usable = false;  // not a real pair or a conjugate pair: the block's own shifts
+        }
+        if (usable) {
+          x = y = 0.5 * sigma;
+          w = 0.25 * sigma * sigma - pi;
+        }
+      }
       if (steps == 10 || steps == 20) {  // exceptional shift, to break a cycle
         shift_total += x;
         for (int i = 0; i <= nn; ++i) h(i, i) -= x;
@@ -190,8 +215,10 @@ bool HessenbergEigenvalues(Square& h, int m, Eigen::VectorXcd* out) {
 
 }  // namespace
 
-bool RealEigenvalues(const Eigen::Ref<const Eigen::MatrixXd>& a, Eigen::VectorXcd* out) {
+bool RealEigenvalues(const Eigen::Ref<const Eigen::MatrixXd>& a, Eigen::VectorXcd* out,
+                     const Eigen::VectorXcd* shifts) {
   const int m = static_cast<int>(a.rows());
+  if (shifts != nullptr && shifts->size() != m) shifts = nullptr;
   out->resize(m);
   if (m == 0) return true;
   if (!a.allFinite()) return false;
@@ -208,7 +235,7 @@ bool RealEigenvalues(const Eigen::Ref<const Eigen::MatrixXd>& a, Eigen::VectorXc
     for (int j = 0; j < m; ++j) h(i, j) = a(i, j) / scale;
   }
   ReduceToHessenberg(h, m, &reflector);
-  if (!HessenbergEigenvalues(h, m, out)) return false;
+  if (!HessenbergEigenvalues(h, m, shifts, scale, out)) return false;
   *out *= scale;
   return true;
 }

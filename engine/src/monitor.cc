@@ -184,6 +184,9 @@ struct Monitor::Impl {
   ReferenceSamples references;
   StabilityMonitor stability;
   AlertTracker stability_tracker;
+  // The last row's companion eigenvalues in the solver's order: the next row's QR shifts
+  // (ComputeCompanionSpectrum). Part of the model's state, so a replay reproduces every bit.
+  Eigen::VectorXcd eigen_shifts;
   std::unique_ptr<Sequential<CusumMonitor>> cusum;
   std::unique_ptr<Sequential<VolatilityMonitor>> volatility;
   std::vector<LinearRestriction> restrictions;
@@ -270,7 +273,7 @@ void Monitor::Impl::Estimate(RowReport* report) {
   bool armed = rows > spec.training_rows;
   if (report->estimate_status.ok()) {
     CompanionSpectrum spectrum;
-    if (ComputeCompanionSpectrum(spec.var, phi, robust, &spectrum).ok()) {
+    if (ComputeCompanionSpectrum(spec.var, phi, robust, &spectrum, &eigen_shifts).ok()) {
       report->has_spectral_radius = true;
       report->spectral_radius = spectrum.spectral_radius;
     }

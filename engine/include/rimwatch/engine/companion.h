@@ -34,7 +34,15 @@ struct CompanionSpectrum {
 };
 
 // Fails with kNumerical when the eigen solver does not converge.
+//
+// shifts (optional, in and out; for a caller that computes the spectrum of a slowly changing
+// matrix, such as a monitor on every row): the eigenvalues of its previous call in the
+// solver's order, used as QR shifts (RealEigenvalues, eigenvalues.h), and replaced by this
+// call's when the small solver ran (calls with the gradient leave it unchanged). Start it empty.
+// The results depend on its content in the last bits only; a caller that must reproduce a run
+// keeps one per sequence of calls (per model), never shared across sequences.
 Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eigen::MatrixXd>& phi,
-                                bool with_gradient, CompanionSpectrum* out);
+                                bool with_gradient, CompanionSpectrum* out,
+                                Eigen::VectorXcd* shifts = nullptr);
 
 }  // namespace rimwatch
