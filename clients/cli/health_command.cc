@@ -81,6 +81,12 @@ void WriteHealthText(const json& h, bool tty, std::ostream& out) {
       << Text(h.value("pending_acks", json())) << " acknowledgements waiting\n";
   const json models = h.value("models", json::array());
   out << "models: " << models.size() << "\n";
+  const json adding = h.value("models_being_added", json::array());
+  if (adding.is_array() && !adding.empty()) {
+    std::string names;
+    for (const json& name : adding) names += (names.empty() ? "" : ", ") + Text(name);
+    out << "being added (calibrating): " << names << "\n";
+  }
   if (!models.empty()) WriteModelTable(models, /*spec=*/false, tty, out);
 }
 

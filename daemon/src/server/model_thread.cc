@@ -23,7 +23,7 @@ void ModelThread::Submit(std::vector<std::function<void()>>* tasks) {
     std::lock_guard<std::mutex> lock(mutex_);
     for (auto& t : *tasks) queue_.push_back(std::move(t));
     unfinished_ += tasks->size();
-    backlog_.store(unfinished_, std::memory_order_relaxed);
+    backlog_.store(unfinished_, std::memory_order_release);
   }
   tasks->clear();
   work_.notify_one();
@@ -36,7 +36,7 @@ void ModelThread::Drain() {
   wake_below_ = 0;
 }
 
-std::size_t ModelThread::Backlog() const { return backlog_.load(std::memory_order_relaxed); }
+std::size_t ModelThread::Backlog() const { return backlog_.load(std::memory_order_acquire); }
 
 bool ModelThread::WaitBelow(std::size_t n, std::chrono::milliseconds timeout) {
   std::unique_lock<std::mutex> lock(mutex_);
@@ -59,7 +59,7 @@ void ModelThread::Loop() {
     task = nullptr;  // release what it captured before reporting it finished
     lock.lock();
     --unfinished_;
-    backlog_.store(unfinished_, std::memory_order_relaxed);
+    backlog_.store(unfinished_, std::memory_order_release);
     // Only a waiter whose threshold is now met is woken: a wake per task would cost the waiting
     // poll thread (and this one) a futex call for every row while the queue is full.
     if (unfinished_ < wake_below_) done_.notify_all();

@@ -1078,7 +1078,15 @@ struct Server::Impl {
         {"models", ModelListJson(true)},
         {"database_bytes", store->FileBytes()},
         {"pending_acks", static_cast<std::int64_t>(WaitingAcks())},
+        {"models_being_added", AddingNames()},
     };
+  }
+
+  // Names of the model.add requests still calibrating (oldest first).
+  json AddingNames() const {
+    json names = json::array();
+    for (const WarmingAdd& w : warming) names.push_back(w.name);
+    return names;
   }
 
   // The peer of a request: its ROUTER envelope (routing id and any delimiter frames).
