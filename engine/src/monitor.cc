@@ -187,6 +187,14 @@ struct Monitor::Impl {
   // The last row's companion eigenvalues in the solver's order: the next row's QR shifts
   // (ComputeCompanionSpectrum). Part of the model's state, so a replay reproduces every bit.
   Eigen::VectorXcd eigen_shifts;
+  // The covariance context and spectrum (with gradient) of the last robust row, for Summary on
+  // that row (a snapshot at the robust cadence then reuses them instead of computing them again).
+  struct RobustParts {
+    std::int64_t row = 0;  // model row they belong to
+    CovarianceContext ctx;
+    CompanionSpectrum spectrum;
+  };
+  std::optional<RobustParts> robust_parts;
   std::unique_ptr<Sequential<CusumMonitor>> cusum;
   std::unique_ptr<Sequential<VolatilityMonitor>> volatility;
   std::vector<LinearRestriction> restrictions;
@@ -277,6 +285,7 @@ void Monitor::Impl::Estimate(RowReport* report) {
       report->has_spectral_radius = true;
       report->spectral_radius = spectrum.spectral_radius;
     }
+    robust_parts.reset();
     CovarianceContext ctx;
     if (robust && CovarianceContext::Create(tracking, spec.inference.covariance, &ctx).ok()) {
       report->robust_row = true;
@@ -291,6 +300,9 @@ void Monitor::Impl::Estimate(RowReport* report) {
         out.name = r.name;
         out.status = WaldTest(theta, r, ctx.Restricted(r.r_matrix), ctx.info().dof, &out.wald);
         report->restrictions.push_back(std::move(out));
+      }
+      if (report->has_spectral_radius) {
+        robust_parts = RobustParts{rows, std::move(ctx), std::move(spectrum)};
       }
     }
   }
@@ -564,8 +576,13 @@ std::vector<std::string> Monitor::MonitorNames() const {
 
 Status Monitor::Summary(FitReport* out, bool with_diagnostics) const {
   *out = FitReport();
-  Status st = SummarizeEstimate(impl_->tracking, impl_->spec.inference.covariance,
-                                impl_->restrictions, out, with_diagnostics);
+  const auto& parts = impl_->robust_parts;
+  // On a robust row the parts computed for it give the same summary, bit for bit.
+  Status st = parts && parts->row == impl_->rows
+                  ? SummarizeWith(impl_->tracking, parts->ctx, parts->spectrum, impl_->restrictions,
+                                  out, with_diagnostics)
+                  : SummarizeEstimate(impl_->tracking, impl_->spec.inference.covariance,
+                                      impl_->restrictions, out, with_diagnostics);
   out->rows = impl_->rows;
   out->first_row = impl_->spec.var.lags;
   return st;

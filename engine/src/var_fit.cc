@@ -56,6 +56,25 @@ std::vector<DiagnosticLine> FlattenDiagnostics(const ResidualDiagnostics& d, con
 Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covariance,
                          const std::vector<LinearRestriction>& restrictions, FitReport* out,
                          bool with_diagnostics) {
+  Eigen::MatrixXd phi;
+  Status st = est.Coefficients(&phi);
+  if (!st.ok()) return st;
+  Eigen::MatrixXd sigma;
+  st = est.SigmaAdjusted(&sigma);  // checked here to keep the order in which errors are reported
+  if (!st.ok()) return st;
+  CovarianceContext ctx;
+  st = CovarianceContext::Create(est, covariance, &ctx);
+  if (!st.ok()) return st;
+  CompanionSpectrum spectrum;
+  st = ComputeCompanionSpectrum(est.spec(), phi, /*with_gradient=*/true, &spectrum);
+  if (!st.ok()) return st;
+  return SummarizeWith(est, ctx, spectrum, restrictions, out, with_diagnostics);
+}
+
+Status SummarizeWith(const VarEstimator& est, const CovarianceContext& ctx,
+                     const CompanionSpectrum& spectrum,
+                     const std::vector<LinearRestriction>& restrictions, FitReport* out,
+                     bool with_diagnostics) {
   const VarSpec& spec = est.spec();
   out->spec = spec;
   Status st = est.Coefficients(&out->phi);
@@ -65,9 +84,6 @@ Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covar
   st = est.SigmaMl(&out->sigma_ml);
   if (!st.ok()) return st;
 
-  CovarianceContext ctx;
-  st = CovarianceContext::Create(est, covariance, &ctx);
-  if (!st.ok()) return st;
   out->covariance_info = ctx.info();
   const Eigen::MatrixXd v = ctx.Full();
   const int n = spec.n();
@@ -79,9 +95,6 @@ Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covar
     }
   }
 
-  CompanionSpectrum spectrum;
-  st = ComputeCompanionSpectrum(spec, out->phi, /*with_gradient=*/true, &spectrum);
-  if (!st.ok()) return st;
   out->eigenvalues = spectrum.eigenvalues;
   out->spectral_radius = spectrum.spectral_radius;
   out->spectral_radius_se_status = spectrum.gradient_status;

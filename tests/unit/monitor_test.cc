@@ -59,6 +59,49 @@ TEST(MonitorTest, SummaryEqualsBatchFitForExpandingWindow) {
   EXPECT_NEAR(*last.rho_se, batch.spectral_radius_se, 1e-12);  // cheap path vs full V
 }
 
+// On a robust row Summary reuses the covariance and spectrum the row computed; on the others it
+// computes them. Either way it must equal a fresh SummarizeEstimate of the tracking estimator,
+// bit for bit (snapshots are compared bit for bit between live runs and replays).
+TEST(MonitorTest, SummaryEqualsAFreshSummaryOnEveryRow) {
+  const Eigen::MatrixXd y = testing::SimulateVar(3, 2, 460, 24);
+  ModelSpec spec = Spec(WindowKind::kSliding);
+  spec.inference.every = 20;
+  std::unique_ptr<Monitor> mon;
+  ASSERT_TRUE(Monitor::Create(spec, &mon).ok());
+  LinearRestriction granger;
+  ASSERT_TRUE(GrangerRestriction(spec.var, {1}, {0}, &granger).ok());
+  granger.name = "b-not-to-a";
+  int robust_rows = 0;
+  for (int r = 0; r < y.rows(); ++r) {
+    const RowReport report = mon->Update(std::to_string(r + 1), y.row(r).transpose());
+    if (!report.estimated || report.row < 30) continue;
+    robust_rows += report.robust_row ? 1 : 0;
+    for (bool diagnostics : {false, true}) {
+      if (diagnostics && report.row % 50 != 0) continue;  // the residual tests are slow
+      FitReport live, fresh;
+      ASSERT_TRUE(mon->Summary(&live, diagnostics).ok()) << report.row;
+      ASSERT_TRUE(SummarizeEstimate(mon->tracking(), spec.inference.covariance, {granger}, &fresh,
+                                    diagnostics)
+                      .ok());
+      ASSERT_EQ(live.phi, fresh.phi) << report.row;
+      ASSERT_EQ(live.sigma, fresh.sigma) << report.row;
+      ASSERT_EQ(live.std_error, fresh.std_error) << report.row;
+      ASSERT_EQ(live.eigenvalues, fresh.eigenvalues) << report.row;
+      ASSERT_EQ(live.spectral_radius, fresh.spectral_radius) << report.row;
+      ASSERT_EQ(live.spectral_radius_se, fresh.spectral_radius_se) << report.row;
+      ASSERT_EQ(live.tests.size(), 1u);
+      ASSERT_EQ(fresh.tests.size(), 1u);
+      ASSERT_EQ(live.tests[0].result.statistic, fresh.tests[0].result.statistic) << report.row;
+      ASSERT_EQ(live.tests[0].result.p_value, fresh.tests[0].result.p_value) << report.row;
+      ASSERT_EQ(live.diagnostics.size(), fresh.diagnostics.size()) << report.row;
+      for (std::size_t i = 0; i < live.diagnostics.size(); ++i) {
+        ASSERT_EQ(live.diagnostics[i].p_value, fresh.diagnostics[i].p_value) << report.row;
+      }
+    }
+  }
+  EXPECT_GE(robust_rows, 20);  // the reuse was exercised
+}
+
 TEST(MonitorTest, RunsAreBitIdentical) {
   const Eigen::MatrixXd y = testing::SimulateVar(3, 2, 600, 22);
   std::unique_ptr<Monitor> a, b;

@@ -10,6 +10,7 @@
 #include <string>
 #include <vector>
 
+#include "rimwatch/engine/companion.h"
 #include "rimwatch/engine/covariance.h"
 #include "rimwatch/engine/diagnostics.h"
 #include "rimwatch/engine/lag_order.h"
@@ -83,6 +84,14 @@ struct FitReport {
 Status SummarizeEstimate(const VarEstimator& est, const CovarianceOptions& covariance,
                          const std::vector<LinearRestriction>& restrictions, FitReport* out,
                          bool with_diagnostics = true);
+// The same from parts already computed for est's current state: ctx = CovarianceContext::Create
+// (est, covariance) and spectrum = ComputeCompanionSpectrum(spec, phi, with_gradient = true)
+// with phi est's coefficients. Gives SummarizeEstimate's result to the last bit (it is what
+// SummarizeEstimate runs after computing them); a caller that has them saves that work.
+Status SummarizeWith(const VarEstimator& est, const CovarianceContext& ctx,
+                     const CompanionSpectrum& spectrum,
+                     const std::vector<LinearRestriction>& restrictions, FitReport* out,
+                     bool with_diagnostics = true);
 
 // data: rows x n (oldest first), names: n variable names. Errors: invalid options, non-finite
 // data (naming the row and variable), too few rows, rank deficiency.
