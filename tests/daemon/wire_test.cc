@@ -950,6 +950,7 @@ TEST(WireSchemaDumpTest, RepliesAndEventsOfAMonitorRun) {
   health["rows"] = monitor->rows();
   health["observations"] = {{"stored", 1800}, {"duplicates", 3}, {"revisions", 2}, {"late", 1}};
   health["rows_refused"] = 0;
+  health["models_being_added"] = json::array({"wire.next"});
   docs.push_back({{"schema", "reply.health"}, {"doc", json::parse(EncodeOk(8, health))}});
   json list = json::object();
   list["models"] = json::array({"wire.drift"});
