@@ -334,7 +334,7 @@ void Monitor::Impl::RunRestrictions(RowReport* report) {
 // within training + horizon rows). The Nyblom-Hansen test needs no reference sample and runs on.
 void Monitor::Impl::RunConstancy(const Eigen::VectorXd& y, RowReport* report) {
   if (!constancy_recent) return;
-  constancy_recent->Update(y);
+  constancy_recent->Update(y, /*predict=*/false);
   for (const auto& ca : constancy_alarms) {
     ConstancyReading reading;
     const Status st = ca->monitor.Observe(*constancy_recent, ca->reference->estimator, &reading);
@@ -359,7 +359,7 @@ void Monitor::Impl::RunConstancy(const Eigen::VectorXd& y, RowReport* report) {
 // sequential monitors have not joined yet (their samples start at the first estimated row).
 void Monitor::Impl::ConstancyPresample(const Eigen::VectorXd& y) {
   if (!constancy_recent) return;
-  constancy_recent->Update(y);
+  constancy_recent->Update(y, /*predict=*/false);
   references.Update(y);
 }
 
@@ -528,7 +528,9 @@ RowReport Monitor::Update(const std::string& period, const Eigen::Ref<const Eige
   bool ready = false;
   report.status = m.transformer.Apply(raw, &y, &ready);
   if (!report.status.ok() || !ready) return report;
-  const UpdateResult u = m.tracking.Update(y);
+  // No one-step prediction from the tracking and recent-window estimators: only the reference
+  // samples' predictions feed monitors (their `last`).
+  const UpdateResult u = m.tracking.Update(y, /*predict=*/false);
   if (!u.status.ok()) {  // cannot happen after the transformer's checks; kept for safety
     report.status = u.status;
     return report;

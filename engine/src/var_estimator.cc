@@ -66,7 +66,7 @@ bool VarEstimator::NextRegressors(Eigen::VectorXd* x) const {
   return true;
 }
 
-UpdateResult VarEstimator::Update(const Eigen::Ref<const Eigen::VectorXd>& y) {
+UpdateResult VarEstimator::Update(const Eigen::Ref<const Eigen::VectorXd>& y, bool predict) {
   UpdateResult result;
   if (y.size() != n_) {
     result.status =
@@ -88,7 +88,7 @@ UpdateResult VarEstimator::Update(const Eigen::Ref<const Eigen::VectorXd>& y) {
     const std::int64_t t = rows_estimated_ + 1;
     BuildRegressors(t, z_.head(k_));
     z_.tail(n_) = y;
-    if (rows_estimated_ > 0 && factor_.FullColumnRank()) {
+    if (predict && rows_estimated_ > 0 && factor_.FullColumnRank()) {
       factor_.Predict(z_.head(k_), y, &result.prediction_error, &result.prediction_scale);
       result.has_prediction = true;
     }

@@ -150,6 +150,28 @@ TEST(VarEstimatorTest, PredictionErrorUsesThePreviousEstimate) {
   EXPECT_NEAR(u.prediction_scale, f, 1e-10 * f);
 }
 
+// Skipping the prediction changes nothing else: the factor (hence every estimate) is the same
+// to the bit, for each window kind, including the sliding window's downdates and refolds.
+TEST(VarEstimatorTest, UpdateWithoutPredictionKeepsTheSameState) {
+  const int n = 3, p = 2;
+  const Eigen::MatrixXd y = testing::SimulateVar(n, p, 700, 17);
+  for (WindowKind kind : {WindowKind::kExpanding, WindowKind::kSliding, WindowKind::kForgetting}) {
+    VarEstimator with(MakeSpec(n, p, Deterministic::kConstant, kind));
+    VarEstimator without(MakeSpec(n, p, Deterministic::kConstant, kind));
+    int predicted = 0;
+    for (int r = 0; r < y.rows(); ++r) {
+      const UpdateResult a = with.Update(y.row(r).transpose());
+      const UpdateResult b = without.Update(y.row(r).transpose(), /*predict=*/false);
+      ASSERT_EQ(a.estimated, b.estimated);
+      EXPECT_FALSE(b.has_prediction);
+      predicted += a.has_prediction ? 1 : 0;
+      ASSERT_EQ(with.factor().R(), without.factor().R()) << "row " << r;
+    }
+    EXPECT_GT(predicted, 600);
+    EXPECT_EQ(with.refolds(), without.refolds());
+  }
+}
+
 TEST(VarEstimatorTest, NonFiniteRowIsRefusedAndStateUnchanged) {
   const Eigen::MatrixXd y = testing::SimulateVar(2, 1, 50, 15);
   VarEstimator est(MakeSpec(2, 1, Deterministic::kConstant, WindowKind::kSliding));

@@ -42,8 +42,10 @@ class VarEstimator {
   // REQUIRES: spec.IsValid(nullptr, /*allow_zero_lags=*/true).
   explicit VarEstimator(VarSpec spec);
 
-  // Feed the next observation (n values in spec.variables order).
-  UpdateResult Update(const Eigen::Ref<const Eigen::VectorXd>& y);
+  // Feed the next observation (n values in spec.variables order). predict = false skips the
+  // one-step prediction (has_prediction stays false) for a caller that does not read it; the
+  // estimator's state afterwards is the same either way.
+  UpdateResult Update(const Eigen::Ref<const Eigen::VectorXd>& y, bool predict = true);
 
   const VarSpec& spec() const { return spec_; }
   int k() const { return k_; }
