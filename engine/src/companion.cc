@@ -55,9 +55,8 @@ Status ComputeCompanionSpectrum(const VarSpec& spec, const Eigen::Ref<const Eige
   FillCompanionMatrix(spec, phi, &f);
   // Eigenvalues only (every row of a monitor): the small Hessenberg QR of eigenvalues.h. With
   // the gradient: Eigen's solver, for the eigenvectors as well (and as the fallback).
-  const bool quick =
-      !with_gradient &&
-      RealEigenvalues(f, &fast, shifts != nullptr && shifts->size() > 0 ? shifts : nullptr);
+  // RealEigenvalues ignores shifts of the wrong size (an empty vector on the first call).
+  const bool quick = !with_gradient && RealEigenvalues(f, &fast, shifts);
   if (quick && shifts != nullptr) *shifts = fast;
   Eigen::EigenSolver<Eigen::MatrixXd> es;
   if (!quick) {
