@@ -37,6 +37,7 @@
 #include <map>
 #include <nlohmann/json.hpp>
 #include <random>
+#include <set>
 #include <sstream>
 #include <string>
 #include <thread>
@@ -491,6 +492,26 @@ int main(int argc, char** argv) {
   double paced = 100000;
   std::string cases = "bare,records,one,many,paced";  // which runs (for profiling one of them)
   std::string extra_config;
+  const char* usage =
+      "usage: rimwatch_daemon_bench --bin-dir DIR [--rows N] [--window N] [--every N]\n"
+      "                             [--paced OBS_PER_S] [--cases bare,records,one,many,paced]\n"
+      "                             [--config FILE]\n"
+      "Measures rimwatchd (spawned from DIR) against bare baselines over TCP loopback.\n";
+  static const std::set<std::string> known = {"--bin-dir", "--rows",  "--window", "--every",
+                                              "--paced",   "--cases", "--config"};
+  for (int i = 1; i < argc; ++i) {
+    const std::string k = argv[i];
+    if (k == "--help" || k == "-h") {
+      std::fputs(usage, stdout);
+      return 0;
+    }
+    if (!known.count(k) || i + 1 >= argc) {
+      std::fprintf(stderr, "%s: %s\n%s", k.c_str(),
+                   known.count(k) ? "needs a value" : "unknown option", usage);
+      return 2;
+    }
+    ++i;
+  }
   for (int i = 1; i + 1 < argc; i += 2) {
     const std::string k = argv[i];
     if (k == "--bin-dir") bin_dir = argv[i + 1];
