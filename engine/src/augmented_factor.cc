@@ -61,10 +61,15 @@ bool AugmentedFactor::Downdate(const Eigen::Ref<const Eigen::VectorXd>& z, doubl
   for (int i = 0; i < m; ++i) {
     if (r_(i, i) == 0.0) return false;
   }
-  // Solve R' a = z (forward substitution).
+  // Solve R' a = z (forward substitution, as in Predict).
   Eigen::VectorXd& a = work_;
-  a = r_.transpose().triangularView<Eigen::Lower>().solve(z);
-  const double norm2 = a.squaredNorm();
+  double norm2 = 0.0;
+  for (int i = 0; i < m; ++i) {
+    double w = z[i];
+    for (int l = 0; l < i; ++l) w -= r_(l, i) * a[l];
+    a[i] = w / r_(i, i);
+    norm2 += a[i] * a[i];
+  }
   if (!std::isfinite(norm2) || 1.0 - norm2 <= min_slack) return false;
   double alpha = std::sqrt(1.0 - norm2);
   Eigen::VectorXd& c = cos_;
@@ -115,12 +120,20 @@ Eigen::MatrixXd AugmentedFactor::Coefficients() const {
   return phi;
 }
 
+// Back substitution R11 b = R12(:, j) for each equation j, written straight into row j of phi:
+//   b_i = (R12(i, j) - sum_{l > i} R11(i, l) b_l) / R11(i, i),  i = k-1, ..., 0.
+// Plain loops: Eigen's solve with a matrix right-hand side goes through its blocked (GEMM)
+// kernels, whose set-up cost more than the arithmetic at these sizes (k + n is a few dozen at
+// most). A zero pivot gives inf/NaN as any substitution does; callers check FullColumnRank first.
 void AugmentedFactor::Coefficients(Eigen::MatrixXd* phi) const {
-  // The solve runs in place on per-thread scratch (what solve() does on its own copy).
-  thread_local Eigen::MatrixXd phi_t;
-  phi_t = r_.topRightCorner(k_, n_);
-  r_.topLeftCorner(k_, k_).triangularView<Eigen::Upper>().solveInPlace(phi_t);
-  *phi = phi_t.transpose();
+  phi->resize(n_, k_);
+  for (int j = 0; j < n_; ++j) {
+    for (int i = k_ - 1; i >= 0; --i) {
+      double v = r_(i, k_ + j);
+      for (int l = i + 1; l < k_; ++l) v -= r_(i, l) * (*phi)(j, l);
+      (*phi)(j, i) = v / r_(i, i);
+    }
+  }
 }
 
 Eigen::MatrixXd AugmentedFactor::ResidualCrossProduct() const {
@@ -131,11 +144,24 @@ Eigen::MatrixXd AugmentedFactor::ResidualCrossProduct() const {
 void AugmentedFactor::Predict(const Eigen::Ref<const Eigen::VectorXd>& x,
                               const Eigen::Ref<const Eigen::VectorXd>& y, Eigen::VectorXd* v,
                               double* f) const {
+  // Forward substitution R11' u = x (column i of R11 is row i of R11', contiguous), then
+  // v = y - R12' u; plain loops for the same reason as Coefficients.
   thread_local Eigen::VectorXd u;
-  u = x;
-  r_.topLeftCorner(k_, k_).transpose().triangularView<Eigen::Lower>().solveInPlace(u);
-  *f = 1.0 + u.squaredNorm();
-  *v = y - r_.topRightCorner(k_, n_).transpose() * u;
+  u.resize(k_);
+  double uu = 0.0;
+  for (int i = 0; i < k_; ++i) {
+    double w = x[i];
+    for (int l = 0; l < i; ++l) w -= r_(l, i) * u[l];
+    u[i] = w / r_(i, i);
+    uu += u[i] * u[i];
+  }
+  *f = 1.0 + uu;
+  v->resize(n_);
+  for (int j = 0; j < n_; ++j) {
+    double w = y[j];
+    for (int l = 0; l < k_; ++l) w -= r_(l, k_ + j) * u[l];
+    (*v)[j] = w;
+  }
 }
 
 }  // namespace rimwatch

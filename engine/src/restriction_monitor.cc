@@ -656,8 +656,14 @@ Status RestrictedCoefficients(const VarEstimator& est, const LinearRestriction& 
   for (int i = 0; i < n; ++i) {
     const auto ri = rm.middleCols(i * k, k);
     if (ri.isZero(0.0)) continue;
-    const Eigen::MatrixXd t = r11.transpose().solve(ri.transpose());  // R11^{-T} R_i'
-    g[i] = r11.solve(t);                                              // A R_i'
+    // g_i = A R_i' = R11^{-1} R11^{-T} R_i', one column at a time: Eigen's solve with a matrix
+    // right-hand side goes through its blocked (GEMM) kernels, dearer than the arithmetic here.
+    g[i] = ri.transpose();
+    for (Eigen::Index c = 0; c < q; ++c) {
+      auto col = g[i].col(c);
+      r11.transpose().solveInPlace(col);
+      r11.solveInPlace(col);
+    }
     middle.noalias() += ri * g[i];
     departure.noalias() += ri * phi.row(i).transpose();
   }
