@@ -308,7 +308,8 @@ void Monitor::Impl::Estimate(RowReport* report) {
   }
   report->rho_se = rho_se;
   armed = armed && report->has_spectral_radius;
-  MonitorReading reading = stability.Observe(report->spectral_radius, rho_se, armed);
+  MonitorReading reading =
+      stability.Observe(report->spectral_radius, rho_se, armed, stability_tracker.level());
   report->rows_to_unit = stability.rows_to_unit();
   Observe(&stability_tracker, reading, report);
 }

@@ -5,7 +5,8 @@
 
 namespace rimwatch {
 
-MonitorReading StabilityMonitor::Observe(double rho, std::optional<double> se, bool armed) {
+MonitorReading StabilityMonitor::Observe(double rho, std::optional<double> se, bool armed,
+                                         AlertLevel active) {
   recent_.push_back(rho);
   while (static_cast<int>(recent_.size()) > spec_.slope_rows) recent_.pop_front();
   const int m = static_cast<int>(recent_.size());
@@ -33,10 +34,16 @@ MonitorReading StabilityMonitor::Observe(double rho, std::optional<double> se, b
   if (se && *se > 0.0) r.critical = std::min(r.critical, 1.0 - 1.645 * *se);
   r.critical = std::max(r.critical, r.warn);  // a huge SE must not make warn unreachable
   r.clear = spec_.warn;
-  // The full text only where an alert can be raised (armed, at or above warn: alert.cc); an
-  // ordinary row formats nothing.
-  if (!armed || !(rho >= r.warn)) {
-    r.explanation = "Spectral radius below warn.";
+  // The full text only where an alert can be raised (armed, at a level above the active alert's:
+  // alert.cc); an ordinary row, or a row of an alert already raised at this level, formats
+  // nothing.
+  const AlertLevel level = !armed              ? AlertLevel::kNone
+                           : rho >= r.critical ? AlertLevel::kCritical
+                           : rho >= r.warn     ? AlertLevel::kWarn
+                                               : AlertLevel::kNone;
+  if (level <= active) {
+    r.explanation = level == AlertLevel::kNone ? "Spectral radius below warn."
+                                               : "Spectral radius at the active alert's level.";
     return r;
   }
   char buf[320];

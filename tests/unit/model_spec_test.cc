@@ -103,6 +103,38 @@ TEST(StabilityMonitorTest, CriticalWhenUpperBoundReachesOne) {
   EXPECT_GE(r.statistic, r.critical);
 }
 
+// The sentence of a raised alert is written only for a reading above the tracker's active
+// level; the tracker raises only then, so every raised event still carries it.
+TEST(StabilityMonitorTest, ExplainsOnlyReadingsThatCanRaise) {
+  StabilitySpec spec;
+  StabilityMonitor mon(spec);
+  const auto full = [](const MonitorReading& r) {
+    return r.explanation.find("shocks die out slowly") != std::string::npos;
+  };
+  EXPECT_FALSE(full(mon.Observe(0.90, 0.02, true)));  // below warn
+  EXPECT_TRUE(full(mon.Observe(0.96, 0.01, true)));   // warn, nothing active
+  EXPECT_FALSE(full(mon.Observe(0.96, 0.01, true, AlertLevel::kWarn)));
+  EXPECT_TRUE(full(mon.Observe(0.96, 0.03, true, AlertLevel::kWarn)));  // critical above warn
+  EXPECT_FALSE(full(mon.Observe(0.96, 0.03, true, AlertLevel::kCritical)));
+  EXPECT_FALSE(full(mon.Observe(0.99, 0.01, false)));  // unarmed
+
+  // Through a tracker: every raise carries the full sentence, row after row.
+  StabilityMonitor fed(spec);
+  AlertTracker tracker("m", "stability", AlertRule{2, 0});
+  const double rhos[] = {0.90, 0.96, 0.97, 0.96, 0.999, 0.999, 0.90, 0.90, 0.90, 0.97, 0.999};
+  int raised = 0;
+  std::int64_t row = 0;
+  for (double rho : rhos) {
+    const MonitorReading r = fed.Observe(rho, 0.001, true, tracker.level());
+    const std::optional<AlertEvent> ev = tracker.Observe(++row, "p", r);
+    if (ev && ev->raised) {
+      ++raised;
+      EXPECT_NE(ev->message.find("shocks die out slowly"), std::string::npos) << rho;
+    }
+  }
+  EXPECT_EQ(raised, 4);  // warn, critical, (cleared), warn, critical
+}
+
 TEST(StabilityMonitorTest, ProjectsRowsToUnitFromSlope) {
   StabilitySpec spec;
   spec.slope_rows = 10;

@@ -25,7 +25,11 @@ class StabilityMonitor {
   explicit StabilityMonitor(const StabilitySpec& spec) : spec_(spec) {}
 
   // rho of this row; se when known (nullopt: unavailable, e.g. repeated top eigenvalue).
-  MonitorReading Observe(double rho, std::optional<double> se, bool armed);
+  // active: the level of the alert this monitor's tracker holds now. The explanation (the
+  // sentence of a raised alert) is written only when the reading's level is above it, the only
+  // case in which the tracker can raise (alert.cc); otherwise a short status line.
+  MonitorReading Observe(double rho, std::optional<double> se, bool armed,
+                         AlertLevel active = AlertLevel::kNone);
   // Slope of rho per row over the last slope_rows rows (0 with fewer than 3 rows).
   double slope() const { return slope_; }
   // Rows until rho reaches 1 at the current slope; nullopt when the slope is <= 0 or rho >= 1.
