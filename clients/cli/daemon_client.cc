@@ -54,6 +54,7 @@ void AddConnectionOptions(CLI::App* app, ConnectionOptions* options, Sockets soc
   }
   app->add_option("--timeout", options->timeout_s,
                   "seconds to wait for the daemon (a connection, a reply)")
+      ->envname("RIMWATCH_TIMEOUT")
       ->check(CLI::Range(0.01, 1e6))
       ->capture_default_str()
       ->type_name("SECONDS");

@@ -348,7 +348,7 @@ struct Run {
   }
 
   bool WaitReady(DaemonProcess& daemon) {
-    const auto deadline = Clock::now() + std::chrono::seconds(60);
+    const auto deadline = Clock::now() + Timeout(connection);
     while (Clock::now() < deadline) {
       if (!daemon.Running()) return false;
       std::error_code ec;
@@ -425,7 +425,7 @@ int Run::Go() {
   const std::string events = "ipc://" + (dir / "events.sock").string();
   connection.endpoint = ingest;
   connection.events = events;
-  connection.timeout_s = 60;
+  connection.timeout_s = options.timeout_s;
 
   const DeskScenario desk = MakeDeskScenario();
   const NowcastScenario nowcast = MakeNowcastScenario();
@@ -637,6 +637,13 @@ Command RegisterDemoCommand(CLI::App* parent) {
   sub->add_option("--daemon", options->daemon,
                   "the rimwatchd executable; default: the one beside this rimwatch")
       ->type_name("FILE");
+  sub->add_option("--timeout", options->timeout_s,
+                  "seconds to wait for the demo's rimwatchd (start, a reply; adding a model "
+                  "calibrates its alarms first, which takes longest)")
+      ->envname("RIMWATCH_TIMEOUT")
+      ->check(CLI::Range(0.01, 1e6))
+      ->capture_default_str()
+      ->type_name("SECONDS");
   sub->footer(kDemoFooter);
   return Command{sub, [options] { return RunDemo(*options, std::cout, std::cerr); }};
 }

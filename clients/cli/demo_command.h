@@ -25,11 +25,12 @@
 namespace rimwatch::cli {
 
 struct DemoCommandOptions {
-  std::string dir;      // --dir: data directory (created; must be new or empty); "" = a new one
-                        // under $TMPDIR (default /tmp)
-  double rate = 300.0;  // --rate: requests per second of each feed, > 0; 0 = as fast as acks
-  bool json = false;    // --json: JSON lines {"alert":..} as they arrive, then {"summary":..}
-  std::string daemon;   // --daemon: the rimwatchd executable; "" = beside this executable
+  std::string dir;          // --dir: data directory (created; must be new or empty); "" = a new one
+                            // under $TMPDIR (default /tmp)
+  double rate = 300.0;      // --rate: requests per second of each feed, > 0; 0 = as fast as acks
+  bool json = false;        // --json: JSON lines {"alert":..} as they arrive, then {"summary":..}
+  std::string daemon;       // --daemon: the rimwatchd executable; "" = beside this executable
+  double timeout_s = 60.0;  // --timeout (or $RIMWATCH_TIMEOUT): longest wait for a reply, s
 };
 
 Command RegisterDemoCommand(CLI::App* parent);
