@@ -35,22 +35,27 @@ class TextWriter {
     out_.push_back(':');
   }
   // Quoted and escaped as JSON requires (quote, backslash, control characters).
+  // Runs of characters that need no escape are appended whole.
   void String(std::string_view s) {
     out_.push_back('"');
-    for (const char c : s) {
+    std::size_t run = 0;  // start of the pending run of plain characters
+    for (std::size_t i = 0; i < s.size(); ++i) {
+      const char c = s[i];
       const auto u = static_cast<unsigned char>(c);
-      if (c == '"' || c == '\\') {
-        out_.push_back('\\');
-        out_.push_back(c);
-      } else if (u < 0x20) {
+      if (c != '"' && c != '\\' && u >= 0x20) continue;
+      out_.append(s.substr(run, i - run));
+      run = i + 1;
+      if (u < 0x20) {
         static constexpr char kHex[] = "0123456789abcdef";
         out_.append("\\u00");
         out_.push_back(kHex[u >> 4]);
         out_.push_back(kHex[u & 15]);
       } else {
+        out_.push_back('\\');
         out_.push_back(c);
       }
     }
+    out_.append(s.substr(run));
     out_.push_back('"');
   }
   // Shortest text that reads back to the same double (std::to_chars); a whole number keeps a
