@@ -48,21 +48,30 @@ bool ModelThread::WaitBelow(std::size_t n, std::chrono::milliseconds timeout) {
 
 void ModelThread::Loop() {
   pthread_setname_np(pthread_self(), "rw-model");  // shown by top -H, perf and /proc
+  // Everything queued is taken at once (one lock for the lot); each task is still reported
+  // finished under the lock as soon as it returns, so Backlog, Drain and WaitBelow see every
+  // finish when it happens (a slow task, such as a model rebuild, delays no one's wake).
+  std::deque<std::function<void()>> batch;
   std::unique_lock<std::mutex> lock(mutex_);
   for (;;) {
     work_.wait(lock, [this] { return stop_ || !queue_.empty(); });
     if (queue_.empty()) return;  // stop_, and nothing left to run
-    std::function<void()> task = std::move(queue_.front());
-    queue_.pop_front();
+    batch.swap(queue_);          // queue_ takes batch's (empty) storage
     lock.unlock();
-    task();
-    task = nullptr;  // release what it captured before reporting it finished
+    while (!batch.empty()) {
+      {
+        const std::function<void()> task = std::move(batch.front());
+        batch.pop_front();
+        task();
+      }  // what the task captured is released before it is reported finished
+      std::lock_guard<std::mutex> finished(mutex_);
+      --unfinished_;
+      backlog_.store(unfinished_, std::memory_order_release);
+      // Only a waiter whose threshold is now met is woken: a wake per task would cost the waiting
+      // poll thread (and this one) a futex call for every row while the queue is full.
+      if (unfinished_ < wake_below_) done_.notify_all();
+    }
     lock.lock();
-    --unfinished_;
-    backlog_.store(unfinished_, std::memory_order_release);
-    // Only a waiter whose threshold is now met is woken: a wake per task would cost the waiting
-    // poll thread (and this one) a futex call for every row while the queue is full.
-    if (unfinished_ < wake_below_) done_.notify_all();
   }
 }
 
