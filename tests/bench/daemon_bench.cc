@@ -9,7 +9,8 @@
 //                   code rimwatchd runs, so the baseline writes exactly what rimwatchd writes.
 //
 //   daemon_bench --bin-dir build/bin [--rows 60000] [--window 2000] [--every 100]
-//                [--paced 100000] [--cases bare,records,one,many,paced] [--config FILE]
+//                [--paced 100000] [--cases bare,records,one,many,paced] [--rounds 3]
+//                [--config FILE]
 //
 // Prints, for the baselines, one (3,2) model, and 100 (3,2) models: acked observations per
 // second (3 observations per row message) and the ratios to both baselines, the rate at which
@@ -18,7 +19,10 @@
 // p50 / p99 send-to-alert-event latency of the alerts the scenario's break raises. A last run
 // paces one model at --paced observations per second (default: the 100,000 obs/s throughput
 // target) for latency figures at a steady load; at saturation the ack latency is the in-flight
-// count over the rate (Little's law), whatever the daemon does.
+// count over the rate (Little's law), whatever the daemon does. Every round (--rounds, default 3)
+// repeats the baselines, the one-model run and the paced run back to back (the 100-model run is
+// in the first round only); a closing summary gives the median and range over the rounds of the
+// one-model rate, its ratio to bare + records and the paced ack p99.
 #include <signal.h>
 #include <spawn.h>
 #include <sys/wait.h>
@@ -40,8 +44,8 @@
 #include <random>
 #include <set>
 #include <sstream>
-#include <string_view>
 #include <string>
+#include <string_view>
 #include <thread>
 #include <vector>
 #include <zmq.hpp>
@@ -525,17 +529,19 @@ void Print(const char* what, const Figures& f, double bare, double bare_records)
 
 int main(int argc, char** argv) {
   std::string bin_dir = "build/bin";
-  int rows = 60000, window = 2000, every = 100;
+  int rows = 60000, window = 2000, every = 100, rounds = 3;
   double paced = 100000;
   std::string cases = "bare,records,one,many,paced";  // which runs (for profiling one of them)
   std::string extra_config;
   const char* usage =
       "usage: rimwatch_daemon_bench --bin-dir DIR [--rows N] [--window N] [--every N]\n"
       "                             [--paced OBS_PER_S] [--cases bare,records,one,many,paced]\n"
-      "                             [--config FILE]\n"
-      "Measures rimwatchd (spawned from DIR) against bare baselines over TCP loopback.\n";
+      "                             [--rounds N] [--config FILE]\n"
+      "Measures rimwatchd (spawned from DIR) against bare baselines over TCP loopback; each of\n"
+      "N rounds (default 3) repeats the baselines, the one-model and the paced runs, and a\n"
+      "summary gives the median and range of the ratio and of the paced p99.\n";
   static const std::set<std::string> known = {"--bin-dir", "--rows",  "--window", "--every",
-                                              "--paced",   "--cases", "--config"};
+                                              "--paced",   "--cases", "--config", "--rounds"};
   for (int i = 1; i < argc; ++i) {
     const std::string k = argv[i];
     if (k == "--help" || k == "-h") {
@@ -557,6 +563,7 @@ int main(int argc, char** argv) {
     if (k == "--every") every = std::atoi(argv[i + 1]);
     if (k == "--paced") paced = std::atof(argv[i + 1]);
     if (k == "--cases") cases = argv[i + 1];
+    if (k == "--rounds") rounds = std::max(1, std::atoi(argv[i + 1]));
     if (k == "--config") {  // TOML tables appended to rimwatchd's config (not the default run)
       std::ifstream in(argv[i + 1]);
       extra_config.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
@@ -575,60 +582,23 @@ int main(int argc, char** argv) {
   const auto wanted = [&](const std::string& name) {
     return ("," + cases + ",").find("," + name + ",") != std::string::npos;
   };
-  // Bare baseline.
-  Figures bare;
-  bare.obs_per_s = std::numeric_limits<double>::quiet_NaN();
-  if (wanted("bare")) {
-    std::atomic<bool> stop{false}, ready{false};
-    const std::string ep = "tcp://127.0.0.1:" + std::to_string(port + 2);
-    const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(port + 3);
-    std::thread server(BareServer, ep, pub_ep, (dir / "bare.sqlite").string(), nullptr, &stop,
-                       &ready);
-    while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
-    bare = Feed(ep, "", 1, Simulate(rows, rows, 1), window);
-    stop.store(true);
-    server.join();
-  }
-  // The same, plus what rimwatchd writes and publishes per row of the one-model run (its records
-  // and est events, made beforehand by the engine): the same SQLite inserts, no engine.
-  Figures bare_records;
-  bare_records.obs_per_s = std::numeric_limits<double>::quiet_NaN();
-  if (wanted("records")) {
-    const auto data = Simulate(rows, rows / 2, 2);
-    Recorded recorded = PrepareRecorded(SpecText("m0", "m0_", every), data);
-    std::atomic<bool> stop{false}, ready{false};
-    const std::string ep = "tcp://127.0.0.1:" + std::to_string(port + 2);
-    const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(port + 3);
-    std::thread server(BareServer, ep, pub_ep, (dir / "bare_records.sqlite").string(), &recorded,
-                       &stop, &ready);
-    while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
-    bare_records = Feed(ep, "", 1, data, window);
-    stop.store(true);
-    server.join();
-  }
-  if (wanted("bare")) Print("bare (decode + store)", bare, bare.obs_per_s, bare_records.obs_per_s);
-  if (wanted("records")) {
-    Print("bare + records (no engine)", bare_records, bare.obs_per_s, bare_records.obs_per_s);
-  }
-
-  // Saturated runs (up to `window` requests in flight, as fast as acked), then one model paced at
-  // `rate` observations per second: latency at a steady load below capacity (at saturation the ack
-  // latency is the in-flight count over the rate, whatever the daemon does).
+  // Each round runs the baselines and the one-model cases back to back, so every ratio compares
+  // runs a few seconds apart (this is meant for small shared machines, whose speed drifts by
+  // tens of percent over minutes); the 100-model case runs in the first round only. The summary
+  // gives the median and range over the rounds.
+  int next_port = port;
+  const auto fresh_port = [&] { return next_port += 4; };
   struct Run {
     int models;
     double rate;
     const char* label;
     const char* name;
   };
-  int run_index = 0;
-  for (const Run& run :
-       {Run{1, 0, "rimwatchd, 1 model (3,2)", "one"}, Run{100, 0, "rimwatchd, 100 models", "many"},
-        Run{1, paced, "rimwatchd, 1 model, paced", "paced"}}) {
-    if (!wanted(run.name)) continue;
+  const auto run_daemon = [&](const Run& run, const Figures& bare, const Figures& bare_records) {
     const int models = run.models;
-    const fs::path d = dir / ("d" + std::to_string(run_index++));
+    const int p = fresh_port();
+    const fs::path d = dir / ("d" + std::to_string(p));
     fs::create_directories(d);
-    const int p = port + 4 * run_index;
     const pid_t pid = StartDaemon(bin_dir, d, p, extra_config);
     const std::string ingest = "tcp://127.0.0.1:" + std::to_string(p);
     const std::string events = "tcp://127.0.0.1:" + std::to_string(p + 1);
@@ -646,6 +616,87 @@ int main(int argc, char** argv) {
     if (run.rate > 0) std::printf("%32s(offered %.0f obs/s)\n", "", run.rate);
     std::printf("%32scores used by rimwatchd's threads: %s\n", "",
                 CoresByThread(cpu_before, cpu_after, fed_secs, "rimwatchd").c_str());
+    fs::remove_all(d);
+    return f;
+  };
+  std::vector<double> ratios, one_rates, paced_p99;
+  for (int round = 1; round <= rounds; ++round) {
+    if (rounds > 1) std::printf("round %d of %d\n", round, rounds);
+    // Bare baseline.
+    Figures bare;
+    bare.obs_per_s = std::numeric_limits<double>::quiet_NaN();
+    if (wanted("bare")) {
+      std::atomic<bool> stop{false}, ready{false};
+      const int p = fresh_port();
+      const std::string ep = "tcp://127.0.0.1:" + std::to_string(p);
+      const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(p + 1);
+      const fs::path db = dir / ("bare" + std::to_string(round) + ".sqlite");
+      std::thread server(BareServer, ep, pub_ep, db.string(), nullptr, &stop, &ready);
+      while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
+      bare = Feed(ep, "", 1, Simulate(rows, rows, 1), window);
+      stop.store(true);
+      server.join();
+    }
+    // The same, plus what rimwatchd writes and publishes per row of the one-model run (its
+    // records and est events, made beforehand by the engine): the same SQLite inserts, no engine.
+    Figures bare_records;
+    bare_records.obs_per_s = std::numeric_limits<double>::quiet_NaN();
+    if (wanted("records")) {
+      const auto data = Simulate(rows, rows / 2, 2);
+      Recorded recorded = PrepareRecorded(SpecText("m0", "m0_", every), data);
+      std::atomic<bool> stop{false}, ready{false};
+      const int p = fresh_port();
+      const std::string ep = "tcp://127.0.0.1:" + std::to_string(p);
+      const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(p + 1);
+      const fs::path db = dir / ("bare_records" + std::to_string(round) + ".sqlite");
+      std::thread server(BareServer, ep, pub_ep, db.string(), &recorded, &stop, &ready);
+      while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
+      bare_records = Feed(ep, "", 1, data, window);
+      stop.store(true);
+      server.join();
+    }
+    if (wanted("bare")) {
+      Print("bare (decode + store)", bare, bare.obs_per_s, bare_records.obs_per_s);
+    }
+    if (wanted("records")) {
+      Print("bare + records (no engine)", bare_records, bare.obs_per_s, bare_records.obs_per_s);
+    }
+    // Saturated runs (up to `window` requests in flight, as fast as acked), then one model paced
+    // at `paced` observations per second: latency at a steady load below capacity (at saturation
+    // the ack latency is the in-flight count over the rate, whatever the daemon does).
+    if (wanted("one")) {
+      const Figures f =
+          run_daemon(Run{1, 0, "rimwatchd, 1 model (3,2)", "one"}, bare, bare_records);
+      one_rates.push_back(f.obs_per_s);
+      if (wanted("records")) ratios.push_back(f.obs_per_s / bare_records.obs_per_s);
+    }
+    if (wanted("many") && round == 1) {
+      run_daemon(Run{100, 0, "rimwatchd, 100 models", "many"}, bare, bare_records);
+    }
+    if (wanted("paced")) {
+      const Figures f =
+          run_daemon(Run{1, paced, "rimwatchd, 1 model, paced", "paced"}, bare, bare_records);
+      paced_p99.push_back(f.p99_ms);
+    }
+  }
+  const auto range = [](std::vector<double> v, const char* format) {
+    std::sort(v.begin(), v.end());
+    char buf[160];
+    const std::string f = std::string(format) + " (" + format + " to " + format + ")";
+    std::snprintf(buf, sizeof buf, f.c_str(), v[v.size() / 2], v.front(), v.back());
+    return std::string(buf);
+  };
+  if (rounds > 1) {
+    std::printf("over %d rounds, median (lowest to highest):\n", rounds);
+    if (!one_rates.empty()) {
+      std::printf("  one (3,2) model, acked obs/s      %s\n", range(one_rates, "%.0f").c_str());
+    }
+    if (!ratios.empty()) {
+      std::printf("  one model / bare + records        %s\n", range(ratios, "%.2f").c_str());
+    }
+    if (!paced_p99.empty()) {
+      std::printf("  paced ack p99, ms                 %s\n", range(paced_p99, "%.1f").c_str());
+    }
   }
   fs::remove_all(dir);
   std::printf(
