@@ -18,6 +18,21 @@ inline double Hypot(double a, double b) {
   return std::hypot(a, b);
 }
 
+// Forward substitution on the leading size x size block of the upper triangular r:
+// solves R' u = b (column i of R is row i of R', contiguous) and returns |u|^2. Plain loops:
+// Eigen's triangular solvers cost more in set-up than the arithmetic at these sizes.
+double ForwardSubstitution(const Eigen::MatrixXd& r, int size,
+                           const Eigen::Ref<const Eigen::VectorXd>& b, Eigen::VectorXd* u) {
+  double norm2 = 0.0;
+  for (int i = 0; i < size; ++i) {
+    double w = b[i];
+    for (int l = 0; l < i; ++l) w -= r(l, i) * (*u)[l];
+    (*u)[i] = w / r(i, i);
+    norm2 += (*u)[i] * (*u)[i];
+  }
+  return norm2;
+}
+
 }  // namespace
 
 AugmentedFactor::AugmentedFactor(int k, int n)
@@ -61,15 +76,9 @@ bool AugmentedFactor::Downdate(const Eigen::Ref<const Eigen::VectorXd>& z, doubl
   for (int i = 0; i < m; ++i) {
     if (r_(i, i) == 0.0) return false;
   }
-  // Solve R' a = z (forward substitution, as in Predict).
+  // Solve R' a = z.
   Eigen::VectorXd& a = work_;
-  double norm2 = 0.0;
-  for (int i = 0; i < m; ++i) {
-    double w = z[i];
-    for (int l = 0; l < i; ++l) w -= r_(l, i) * a[l];
-    a[i] = w / r_(i, i);
-    norm2 += a[i] * a[i];
-  }
+  const double norm2 = ForwardSubstitution(r_, m, z, &a);
   if (!std::isfinite(norm2) || 1.0 - norm2 <= min_slack) return false;
   double alpha = std::sqrt(1.0 - norm2);
   Eigen::VectorXd& c = cos_;
@@ -144,18 +153,10 @@ Eigen::MatrixXd AugmentedFactor::ResidualCrossProduct() const {
 void AugmentedFactor::Predict(const Eigen::Ref<const Eigen::VectorXd>& x,
                               const Eigen::Ref<const Eigen::VectorXd>& y, Eigen::VectorXd* v,
                               double* f) const {
-  // Forward substitution R11' u = x (column i of R11 is row i of R11', contiguous), then
-  // v = y - R12' u; plain loops for the same reason as Coefficients.
+  // R11' u = x, then v = y - R12' u (plain loops for the same reason as Coefficients).
   thread_local Eigen::VectorXd u;
   u.resize(k_);
-  double uu = 0.0;
-  for (int i = 0; i < k_; ++i) {
-    double w = x[i];
-    for (int l = 0; l < i; ++l) w -= r_(l, i) * u[l];
-    u[i] = w / r_(i, i);
-    uu += u[i] * u[i];
-  }
-  *f = 1.0 + uu;
+  *f = 1.0 + ForwardSubstitution(r_, k_, x, &u);
   v->resize(n_);
   for (int j = 0; j < n_; ++j) {
     double w = y[j];
