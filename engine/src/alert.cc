@@ -27,16 +27,16 @@ const char* AlertLevelName(AlertLevel level) {
   return "?";
 }
 
+AlertLevel ReadingLevel(const MonitorReading& reading) {
+  if (!reading.armed) return AlertLevel::kNone;
+  if (reading.statistic >= reading.critical) return AlertLevel::kCritical;
+  if (reading.statistic >= reading.warn) return AlertLevel::kWarn;
+  return AlertLevel::kNone;
+}
+
 std::optional<AlertEvent> AlertTracker::Observe(std::int64_t row, const std::string& period,
                                                 const MonitorReading& reading) {
-  AlertLevel now = AlertLevel::kNone;
-  if (reading.armed) {
-    if (reading.statistic >= reading.critical) {
-      now = AlertLevel::kCritical;
-    } else if (reading.statistic >= reading.warn) {
-      now = AlertLevel::kWarn;
-    }
-  }
+  const AlertLevel now = ReadingLevel(reading);
   // The event is built only for a transition (most rows have none, and its strings cost).
   const auto event = [&] {
     AlertEvent ev;

@@ -37,10 +37,7 @@ MonitorReading StabilityMonitor::Observe(double rho, std::optional<double> se, b
   // The full text only where an alert can be raised (armed, at a level above the active alert's:
   // alert.cc); an ordinary row, or a row of an alert already raised at this level, formats
   // nothing.
-  const AlertLevel level = !armed              ? AlertLevel::kNone
-                           : rho >= r.critical ? AlertLevel::kCritical
-                           : rho >= r.warn     ? AlertLevel::kWarn
-                                               : AlertLevel::kNone;
+  const AlertLevel level = ReadingLevel(r);
   if (level <= active) {
     r.explanation = level == AlertLevel::kNone ? "Spectral radius below warn."
                                                : "Spectral radius at the active alert's level.";

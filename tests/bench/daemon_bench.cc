@@ -553,19 +553,16 @@ int main(int argc, char** argv) {
                    known.count(k) ? "needs a value" : "unknown option", usage);
       return 2;
     }
-    ++i;
-  }
-  for (int i = 1; i + 1 < argc; i += 2) {
-    const std::string k = argv[i];
-    if (k == "--bin-dir") bin_dir = argv[i + 1];
-    if (k == "--rows") rows = std::atoi(argv[i + 1]);
-    if (k == "--window") window = std::atoi(argv[i + 1]);
-    if (k == "--every") every = std::atoi(argv[i + 1]);
-    if (k == "--paced") paced = std::atof(argv[i + 1]);
-    if (k == "--cases") cases = argv[i + 1];
-    if (k == "--rounds") rounds = std::max(1, std::atoi(argv[i + 1]));
+    const char* v = argv[++i];
+    if (k == "--bin-dir") bin_dir = v;
+    if (k == "--rows") rows = std::atoi(v);
+    if (k == "--window") window = std::atoi(v);
+    if (k == "--every") every = std::atoi(v);
+    if (k == "--paced") paced = std::atof(v);
+    if (k == "--cases") cases = v;
+    if (k == "--rounds") rounds = std::max(1, std::atoi(v));
     if (k == "--config") {  // TOML tables appended to rimwatchd's config (not the default run)
-      std::ifstream in(argv[i + 1]);
+      std::ifstream in(v);
       extra_config.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
     }
   }
@@ -619,41 +616,37 @@ int main(int argc, char** argv) {
     fs::remove_all(d);
     return f;
   };
+  // A baseline server on its own store, fed `data`; `recorded`: also its records and events.
+  const auto run_bare = [&](const char* name, const std::vector<std::array<double, 3>>& data,
+                            Recorded* recorded, int round) {
+    std::atomic<bool> stop{false}, ready{false};
+    const int p = fresh_port();
+    const std::string ep = "tcp://127.0.0.1:" + std::to_string(p);
+    const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(p + 1);
+    const fs::path db = dir / (name + std::to_string(round) + ".sqlite");
+    std::thread server(BareServer, ep, pub_ep, db.string(), recorded, &stop, &ready);
+    while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
+    const Figures f = Feed(ep, "", 1, data, window);
+    stop.store(true);
+    server.join();
+    return f;
+  };
+  // The records of the one-model run, made once (every round writes the same bytes).
+  const auto records_data = Simulate(rows, rows / 2, 2);
+  Recorded recorded;
+  if (wanted("records")) recorded = PrepareRecorded(SpecText("m0", "m0_", every), records_data);
   std::vector<double> ratios, one_rates, paced_p99;
   for (int round = 1; round <= rounds; ++round) {
     if (rounds > 1) std::printf("round %d of %d\n", round, rounds);
-    // Bare baseline.
     Figures bare;
     bare.obs_per_s = std::numeric_limits<double>::quiet_NaN();
-    if (wanted("bare")) {
-      std::atomic<bool> stop{false}, ready{false};
-      const int p = fresh_port();
-      const std::string ep = "tcp://127.0.0.1:" + std::to_string(p);
-      const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(p + 1);
-      const fs::path db = dir / ("bare" + std::to_string(round) + ".sqlite");
-      std::thread server(BareServer, ep, pub_ep, db.string(), nullptr, &stop, &ready);
-      while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
-      bare = Feed(ep, "", 1, Simulate(rows, rows, 1), window);
-      stop.store(true);
-      server.join();
-    }
+    if (wanted("bare")) bare = run_bare("bare", Simulate(rows, rows, 1), nullptr, round);
     // The same, plus what rimwatchd writes and publishes per row of the one-model run (its
     // records and est events, made beforehand by the engine): the same SQLite inserts, no engine.
     Figures bare_records;
     bare_records.obs_per_s = std::numeric_limits<double>::quiet_NaN();
     if (wanted("records")) {
-      const auto data = Simulate(rows, rows / 2, 2);
-      Recorded recorded = PrepareRecorded(SpecText("m0", "m0_", every), data);
-      std::atomic<bool> stop{false}, ready{false};
-      const int p = fresh_port();
-      const std::string ep = "tcp://127.0.0.1:" + std::to_string(p);
-      const std::string pub_ep = "tcp://127.0.0.1:" + std::to_string(p + 1);
-      const fs::path db = dir / ("bare_records" + std::to_string(round) + ".sqlite");
-      std::thread server(BareServer, ep, pub_ep, db.string(), &recorded, &stop, &ready);
-      while (!ready.load()) std::this_thread::sleep_for(std::chrono::milliseconds(5));
-      bare_records = Feed(ep, "", 1, data, window);
-      stop.store(true);
-      server.join();
+      bare_records = run_bare("bare_records", records_data, &recorded, round);
     }
     if (wanted("bare")) {
       Print("bare (decode + store)", bare, bare.obs_per_s, bare_records.obs_per_s);

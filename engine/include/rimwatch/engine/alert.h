@@ -36,6 +36,10 @@ struct MonitorReading {
   std::string explanation;
 };
 
+// The level a reading stands at: none when unarmed, else critical at or above critical, warn at
+// or above warn. AlertTracker raises only to a level above the one it holds.
+AlertLevel ReadingLevel(const MonitorReading& reading);
+
 struct AlertEvent {
   std::int64_t row = 0;  // model row number (1-based estimation row of the model)
   std::string period;    // period label of that row
